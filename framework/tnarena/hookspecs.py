@@ -55,7 +55,9 @@ def tnarena_register_code_families(register: Callable[..., None]) -> None:
 
     register : callable
         Call ``register(name, builder, summary)`` where
-        ``builder(lattice: str, size: int, seed: int) -> tnarena.codes.PauliCode``.
+        ``builder(lattice_builder, size: int, seed: int) -> tnarena.codes.PauliCode``;
+        ``lattice_builder(width, height, seed=...) -> Lattice`` is the builder of
+        the lattice family the user named, or None when none was named.
 
     Returns nothing; every implementation is called.
     """

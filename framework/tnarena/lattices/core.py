@@ -7,6 +7,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from tnarena.errors import TnarenaError
+from tnarena.lattices.geometry import find_crossing
 
 
 @dataclass(frozen=True, eq=False)
@@ -42,14 +43,14 @@ class Lattice:
     def from_graph(cls, name: str, positions: np.ndarray, edges: np.ndarray) -> "Lattice":
         """Build a lattice from positions and edges, tracing faces from the drawing.
 
-        Raises TnarenaError when the graph is not connected or the straight-line
-        drawing is not planar (edges cross).
+        Raises TnarenaError when an edge names a missing vertex, a position is
+        not finite, the graph is not connected, or the straight-line drawing is
+        not planar (edges cross, touch or overlap).
         """
         positions = np.asarray(positions, dtype=float).reshape(-1, 2)
         edges = np.sort(np.asarray(edges, dtype=int).reshape(-1, 2), axis=1)
         edges = np.unique(edges, axis=0)
-        if edges.size and (edges[:, 0] == edges[:, 1]).any():
-            raise TnarenaError("a lattice edge joins a vertex to itself; remove self-loops.")
+        _check_drawing(positions, edges)
         faces, outer = trace_faces(positions, edges)
         return cls(name=name, positions=positions, edges=edges, faces=faces, outer=outer)
 
@@ -137,6 +138,37 @@ def trace_faces(
         )
     outer = tuple(reversed(cycles[outer_i]))
     return inner, outer
+
+
+def _check_drawing(positions: np.ndarray, edges: np.ndarray) -> None:
+    """Raise TnarenaError unless edges name existing vertices and are drawn without crossings."""
+    nv = positions.shape[0]
+    if not np.isfinite(positions).all():
+        bad = int(np.flatnonzero(~np.isfinite(positions).all(axis=1))[0])
+        raise TnarenaError(f"vertex {bad} has a non-finite position; give finite coordinates.")
+    if edges.size and (edges.min() < 0 or edges.max() >= nv):
+        bad = int(np.flatnonzero(((edges < 0) | (edges >= nv)).any(axis=1))[0])
+        u, v = edges[bad]
+        raise TnarenaError(
+            f"edge ({u}, {v}) names a vertex outside 0..{nv - 1}; use indices of given positions."
+        )
+    if edges.size and (edges[:, 0] == edges[:, 1]).any():
+        raise TnarenaError("a lattice edge joins a vertex to itself; remove self-loops.")
+    if edges.size:
+        ends = positions[edges]
+        short = np.flatnonzero((ends[:, 0] == ends[:, 1]).all(axis=1))
+        if short.size:
+            u, v = edges[short[0]]
+            raise TnarenaError(
+                f"edge ({u}, {v}) joins two vertices drawn at the same point; move one of them."
+            )
+    pair = find_crossing(positions, edges)
+    if pair is not None:
+        (a, b), (c, d) = edges[pair[0]], edges[pair[1]]
+        raise TnarenaError(
+            f"edges ({a}, {b}) and ({c}, {d}) cross, touch or overlap in the straight-line "
+            "drawing; move the vertices so that edges meet only at their ends."
+        )
 
 
 def _signed_area(pts: np.ndarray) -> float:

@@ -1,0 +1,172 @@
+"""Maximum-likelihood decoding: class log-probabilities, decision, outcome.
+
+:class:`Decoder` ties a code, a noise table and one strategy setting
+together. It builds the network structure once, plans once, and for each
+syndrome finds a pure error by GF(2) linear algebra, evaluates
+ln P(E_s L G) for every logical class L that can be non-zero, and picks the
+largest.
+"""
+
+from __future__ import annotations
+
+import itertools
+import math
+import time
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+from tnarena.codes.core import PauliCode
+from tnarena.errors import PluginError, TnarenaError
+from tnarena.network.builder import NetworkBuilder, _LinearSolver
+from tnarena.pauli import symplectic_products
+from tnarena.strategy import Strategy
+
+_K1_LABELS = {(0, 0): "I", (1, 0): "X", (1, 1): "Y", (0, 1): "Z"}
+
+
+def class_label(cls: tuple[int, ...]) -> str:
+    """'I', 'X', 'Y', 'Z' for k = 1; a product such as 'X0 Z1' (or 'I') otherwise."""
+    if len(cls) == 2:
+        return _K1_LABELS[cls]
+    parts = [_K1_LABELS[(cls[2 * i], cls[2 * i + 1])] + str(i) for i in range(len(cls) // 2)]
+    parts = [p for p in parts if not p.startswith("I")]
+    return " ".join(parts) or "I"
+
+
+def logical_classes(k: int) -> list[tuple[int, ...]]:
+    """All 4^k classes as (a_1, b_1, ..., a_k, b_k), identity first."""
+    return [tuple(c) for c in itertools.product((0, 1), repeat=2 * k)]
+
+
+@dataclass
+class ClassResult:
+    """One logical class: its label, ln P (natural log; -inf when impossible) and stats."""
+
+    cls: tuple[int, ...]
+    label: str
+    log_prob: float
+    stats: dict[str, float] = field(default_factory=dict)
+    seconds: float = 0.0
+
+
+@dataclass
+class DecodeResult:
+    """The outcome of decoding one syndrome (and, for a sampled error, whether it failed)."""
+
+    syndrome: np.ndarray
+    classes: list[ClassResult]
+    decision: tuple[int, ...]
+    true_class: tuple[int, ...] | None = None
+    plan_seconds: float = 0.0
+
+    @property
+    def failed(self) -> bool | None:
+        return None if self.true_class is None else self.decision != self.true_class
+
+    def posterior(self) -> dict[str, float]:
+        """P(class | syndrome) for every class, normalised over the classes."""
+        logs = np.array([c.log_prob for c in self.classes])
+        top = logs.max()
+        weights = np.exp(logs - top)
+        weights /= weights.sum()
+        return {c.label: float(w) for c, w in zip(self.classes, weights)}
+
+
+class Decoder:
+    """ML decoder for one code, noise table and strategy setting.
+
+    Parameters
+    ----------
+    code : PauliCode
+    noise : ndarray, shape (n, 4)
+    strategy : Strategy
+    params : dict, optional
+        Strategy parameters (validated; missing ones take their defaults).
+    """
+
+    def __init__(self, code: PauliCode, noise: np.ndarray, strategy: Strategy, params: dict | None = None) -> None:
+        self.code = code
+        self.strategy = strategy
+        self.params = strategy.resolve(params)
+        self.builder = NetworkBuilder(code, noise)
+        stab = code.stabilizers
+        n = code.n
+        # syndrome_i = <g_i, E> = g_i,x . E_z + g_i,z . E_x, linear in E = [x | z]
+        self._syndrome_solver = _LinearSolver(np.concatenate([stab[:, n:], stab[:, :n]], axis=1))
+        start = time.perf_counter()
+        self.plan = _call(strategy, "plan", self.builder.structure, self.params)
+        self.plan_seconds = time.perf_counter() - start
+
+    def pure_error(self, syndrome: np.ndarray) -> np.ndarray:
+        """An error (shape (2n,)) with the given syndrome (shape (s,), 0/1)."""
+        s = np.asarray(syndrome).reshape(-1)
+        expected = self.code.stabilizers.shape[0]
+        if s.size != expected:
+            raise TnarenaError(
+                f"the syndrome has {s.size} bits but the code has {expected} stabilizer generators."
+            )
+        if not np.isin(s, (0, 1)).all():
+            raise TnarenaError("a syndrome holds only 0 and 1.")
+        error = self._syndrome_solver.solve(s.astype(np.uint8))
+        if error is None:
+            raise TnarenaError(
+                "no Pauli error has this syndrome (the stabilizer generators are dependent "
+                "and the syndrome breaks a relation between them); check the syndrome."
+            )
+        return error
+
+    def true_class(self, error: np.ndarray, pure: np.ndarray) -> tuple[int, ...]:
+        """Logical class of ``error`` relative to the pure error of its syndrome."""
+        diff = np.asarray(error, dtype=np.uint8) ^ pure
+        out = []
+        for i in range(self.code.k):
+            out.append(int(symplectic_products(diff, self.code.logicals[i, 1])[0, 0]))  # X-bar part
+            out.append(int(symplectic_products(diff, self.code.logicals[i, 0])[0, 0]))  # Z-bar part
+        return tuple(out)
+
+    def decode_syndrome(self, syndrome: np.ndarray) -> DecodeResult:
+        pure = self.pure_error(syndrome)
+        return self._decode(np.asarray(syndrome).reshape(-1), pure, None)
+
+    def decode_error(self, error: np.ndarray) -> DecodeResult:
+        """Decode the syndrome of a known error and record whether the decision is wrong."""
+        error = np.asarray(error, dtype=np.uint8).reshape(-1)
+        if error.size != 2 * self.code.n:
+            raise TnarenaError(
+                f"the error has {error.size} symplectic entries; the code needs 2n = {2 * self.code.n}."
+            )
+        syndrome = self.code.syndrome(error)
+        pure = self.pure_error(syndrome)
+        return self._decode(syndrome, pure, self.true_class(error, pure))
+
+    def class_log_probs(self, pure: np.ndarray) -> list[ClassResult]:
+        results = []
+        for cls in logical_classes(self.code.k):
+            network = self.builder.network(pure, cls)
+            start = time.perf_counter()
+            if network.is_zero:
+                log_prob, stats = -math.inf, {}
+            else:
+                estimate = _call(self.strategy, "contract", self.plan, network)
+                log_prob, stats = estimate.log_value + network.log_scale, dict(estimate.stats)
+            results.append(ClassResult(cls, class_label(cls), log_prob, stats, time.perf_counter() - start))
+        return results
+
+    def _decode(self, syndrome, pure, true_cls) -> DecodeResult:
+        classes = self.class_log_probs(pure)
+        best = max(classes, key=lambda c: c.log_prob)
+        return DecodeResult(syndrome, classes, best.cls, true_cls, self.plan_seconds)
+
+
+def _call(strategy: Strategy, method: str, *args: Any) -> Any:
+    """Call a strategy method; user errors pass through, anything else names the strategy."""
+    try:
+        return getattr(strategy, method)(*args)
+    except TnarenaError:
+        raise
+    except Exception as exc:
+        raise PluginError(
+            f"strategy {strategy.name!r} raised {type(exc).__name__} in {method}(): {exc}"
+        ) from exc

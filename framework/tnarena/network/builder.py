@@ -1,0 +1,310 @@
+"""The network builder shared by every strategy: (code, noise, error, class) -> network.
+
+For an error E and a logical class L the class probability is
+
+    P(E L G) = 2^-(m - rank) * sum_{s in {0,1}^m} prod_q P_q((E L g^s)_q)
+
+(shared/DESIGN.md). :class:`NetworkBuilder` turns this sum into a
+:class:`DecodingNetwork` in three steps, the first two done once per
+(code, noise support):
+
+1. *Elimination.* Where a qubit's noise lives in a subgroup ({I, X}, {I, Z},
+   {I, Y} or {I}), a term is non-zero only if the Pauli there stays in it:
+   linear constraints ``M s = b`` over GF(2). Generators that no constraint
+   sees stay free variables; the others are fixed to a particular solution
+   (absorbed into E L) plus their null space (products that are again free;
+   products that are the identity become a factor 2 each). For a CSS code
+   under pure X noise this drops every Z-type generator.
+2. *Splitting.* Where a qubit's channel factorises into independent X and Z
+   flips (P_I P_Y = P_X P_Z) and no generator acts on it by Y, the qubit
+   becomes two nodes, one for its X bit and one for its Z bit. For a CSS
+   code under independent X/Z noise the network falls into two pieces.
+3. *Arrays* (per error and class): each qubit node gets the probabilities of
+   the Pauli the incident generator variables produce, normalised to a
+   largest entry of 1 with the logarithm of the factor carried in
+   ``log_scale``.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from tnarena import gf2
+from tnarena.codes.core import PauliCode
+from tnarena.errors import TnarenaError
+from tnarena.network.structure import GENERATOR, QUBIT, DecodingNetwork, NetworkStructure
+from tnarena.noise import validate_table
+from tnarena.pauli import column_of
+
+#: Relative tolerance for "this channel factorises into independent X and Z flips".
+FACTOR_TOLERANCE = 1e-12
+
+_FULL, _XBIT, _ZBIT = "full", "x", "z"
+
+
+@dataclass(frozen=True)
+class _QubitNode:
+    qubit: int
+    mode: str  # 'full', 'x' or 'z'
+    generators: tuple[int, ...]  # effective generator ids, axis order
+
+
+def copy_tensor(degree: int) -> np.ndarray:
+    """COPY tensor of ``degree`` legs of dimension 2: 1 where all indices agree."""
+    t = np.zeros((2,) * degree)
+    t[(0,) * degree] = 1.0
+    t[(1,) * degree] = 1.0
+    t.setflags(write=False)
+    return t
+
+
+class NetworkBuilder:
+    """Builds decoding networks for one code under one noise table.
+
+    Parameters
+    ----------
+    code : PauliCode
+    noise : array-like, shape (n, 4)
+        Per-qubit probabilities of I, X, Y, Z.
+
+    The structure is computed once here; :meth:`network` fills in the arrays
+    for an error (shape (2n,)) and a logical class.
+    """
+
+    def __init__(self, code: PauliCode, noise: np.ndarray) -> None:
+        self.code = code
+        self.table = validate_table(noise, code.n)
+        n, gens = code.n, code.generators
+        m = gens.shape[0]
+        self._constraints = _constraint_rows(self.table)
+        coupling = (self._constraints.astype(np.int64) @ gens.T.astype(np.int64)) % 2
+        free = np.flatnonzero(~coupling.any(axis=0))
+        fixed = np.flatnonzero(coupling.any(axis=0))
+        self._fixed_gens = gens[fixed]
+        m_fixed = coupling[:, fixed].astype(np.uint8)
+        self._solver = _LinearSolver(m_fixed)
+        combos = (gf2.nullspace(m_fixed).astype(np.int64) @ self._fixed_gens) % 2 if fixed.size else []
+        combos = np.asarray(combos, dtype=np.uint8).reshape(-1, 2 * n)
+        identity = ~combos.any(axis=1)
+        eff = np.vstack([gens[free], combos[~identity]]) if free.size or (~identity).any() else np.zeros((0, 2 * n), np.uint8)
+        self._effective = eff.astype(np.uint8)
+        self._eff_labels = [int(i) for i in free] + [-1] * int((~identity).sum())
+        rank = gf2.rank(gens) if m else 0
+        self.log_norm = (int(identity.sum()) - (m - rank)) * math.log(2.0)
+        self._build_structure()
+
+    # ---- structure -----------------------------------------------------------
+    def _build_structure(self) -> None:
+        n, eff, table = self.code.n, self._effective, self.table
+        acts_x = eff[:, :n].astype(bool)
+        acts_z = eff[:, n:].astype(bool)
+        nodes: list[_QubitNode] = []
+        constants: list[_QubitNode] = []
+        for q in range(n):
+            on = np.flatnonzero(acts_x[:, q] | acts_z[:, q])
+            split = _factorises(table[q]) and not (acts_x[on, q] & acts_z[on, q]).any()
+            parts = (
+                [(_XBIT, on[acts_x[on, q]]), (_ZBIT, on[acts_z[on, q]])] if split else [(_FULL, on)]
+            )
+            for mode, attached in parts:
+                node = _QubitNode(q, mode, tuple(int(g) for g in attached))
+                (nodes if attached.size else constants).append(node)
+        used = sorted({g for node in nodes for g in node.generators})
+        gen_node = {g: i for i, g in enumerate(used)}
+        offset = len(used)
+        bonds: list[tuple[int, int]] = []
+        gen_bonds: list[list[int]] = [[] for _ in used]
+        qubit_bonds: list[tuple[int, ...]] = []
+        for j, node in enumerate(nodes):
+            mine = []
+            for g in node.generators:
+                bonds.append((gen_node[g], offset + j))
+                gen_bonds[gen_node[g]].append(len(bonds) - 1)
+                mine.append(len(bonds) - 1)
+            qubit_bonds.append(tuple(mine))
+        qpos = self.code.qubit_positions
+        gpos = []
+        for g in used:
+            label = self._eff_labels[g]
+            if label >= 0:
+                gpos.append(self.code.generator_positions[label])
+            else:
+                gpos.append(qpos[np.flatnonzero(acts_x[g] | acts_z[g])].mean(axis=0))
+        positions = np.array(gpos + [qpos[node.qubit] for node in nodes], dtype=float).reshape(-1, 2)
+        self.structure = NetworkStructure(
+            kinds=(GENERATOR,) * len(used) + (QUBIT,) * len(nodes),
+            labels=tuple(self._eff_labels[g] for g in used) + tuple(node.qubit for node in nodes),
+            positions=positions,
+            bonds=np.array(bonds, dtype=np.int64).reshape(-1, 2),
+            node_bonds=tuple(tuple(b) for b in gen_bonds) + tuple(qubit_bonds),
+        )
+        self._copies = tuple(copy_tensor(len(b)) for b in gen_bonds)
+        self._groups = _group_by_degree(nodes, offset, eff, table)
+        self._constant = _group_by_degree(constants, -1, eff, table)
+
+    # ---- arrays --------------------------------------------------------------
+    def network(self, error: np.ndarray, logical_class: tuple[int, ...] | None = None) -> DecodingNetwork:
+        """The network whose value times exp(log_scale) is P(E L G).
+
+        error : shape (2n,), symplectic; logical_class : (a_1, b_1, ...) or None for L = I.
+        """
+        code = self.code
+        base = np.asarray(error, dtype=np.uint8).reshape(-1)
+        if base.size != 2 * code.n:
+            raise TnarenaError(
+                f"the error has {base.size} symplectic entries; the code needs 2n = {2 * code.n}."
+            )
+        if logical_class is not None:
+            base = base ^ code.logical_operator(logical_class)
+        arrays: list[np.ndarray | None] = list(self._copies) + [None] * (
+            self.structure.num_nodes - len(self._copies)
+        )
+        b = (self._constraints.astype(np.int64) @ base) % 2
+        fixed = self._solver.solve(b)
+        if fixed is None:
+            return self._zero(arrays)
+        if fixed.size:
+            base = base ^ ((fixed.astype(np.int64) @ self._fixed_gens) % 2).astype(np.uint8)
+        log_scale = self.log_norm
+        for group, target in ((self._constant, None), *((g, g) for g in self._groups)):
+            if group is None or group.size == 0:
+                continue
+            vals = group.values(base, code.n)
+            peak = vals.max(axis=1)
+            if (peak <= 0).any():
+                return self._zero(arrays)
+            log_scale += float(np.log(peak).sum())
+            if target is None:
+                continue
+            vals = vals / peak[:, None]
+            shape = (2,) * group.degree
+            for node, row in zip(group.nodes, vals):
+                arrays[node] = row.reshape(shape)
+        return DecodingNetwork(self.structure, tuple(arrays), log_scale)
+
+    def _zero(self, arrays: list) -> DecodingNetwork:
+        filled = tuple(
+            a if a is not None else np.zeros((2,) * self.structure.degree(i))
+            for i, a in enumerate(arrays)
+        )
+        return DecodingNetwork(self.structure, filled, -math.inf)
+
+
+class _LinearSolver:
+    """Solves ``A x = b`` over GF(2) for many b with one elimination of A (r x k)."""
+
+    def __init__(self, a: np.ndarray) -> None:
+        r, k = a.shape
+        aug = np.concatenate([a, np.eye(r, dtype=np.uint8)], axis=1)
+        reduced, pivots = gf2.row_reduce(aug, ncols=k)
+        self.k = k
+        self.pivots = np.array(pivots, dtype=int)
+        self.transform = reduced[:, k:].astype(np.int64)
+
+    def solve(self, b: np.ndarray) -> np.ndarray | None:
+        if self.transform.size == 0:
+            return np.zeros(self.k, dtype=np.uint8) if not np.asarray(b).any() else None
+        tb = (self.transform @ b) % 2
+        rank = self.pivots.size
+        if tb[rank:].any():
+            return None
+        x = np.zeros(self.k, dtype=np.uint8)
+        x[self.pivots] = tb[:rank]
+        return x
+
+
+@dataclass
+class _DegreeGroup:
+    """Qubit nodes of one degree, vectorised: values = V[q][x_bit, z_bit]."""
+
+    degree: int
+    nodes: np.ndarray  # node ids (or -1 for constants), shape (g,)
+    qubits: np.ndarray  # shape (g,)
+    flip_x: np.ndarray  # shape (g, 2^degree), x bit flipped by each assignment
+    flip_z: np.ndarray
+    value: np.ndarray  # shape (g, 4): V[x, z] flattened as 2 x + z
+
+    @property
+    def size(self) -> int:
+        return int(self.qubits.size)
+
+    def values(self, base: np.ndarray, n: int) -> np.ndarray:
+        x = base[self.qubits][:, None] ^ self.flip_x
+        z = base[n + self.qubits][:, None] ^ self.flip_z
+        return np.take_along_axis(self.value, (2 * x + z).astype(np.intp), axis=1)
+
+
+def _group_by_degree(nodes, offset, eff, table) -> list[_DegreeGroup] | _DegreeGroup | None:
+    n = table.shape[0]
+    by_degree: dict[int, list[tuple[int, _QubitNode]]] = {}
+    for j, node in enumerate(nodes):
+        by_degree.setdefault(len(node.generators), []).append((j, node))
+    groups = []
+    for degree, members in sorted(by_degree.items()):
+        assign = ((np.arange(2**degree)[:, None] >> np.arange(degree)[::-1]) & 1).astype(np.uint8)
+        fx, fz, vals = [], [], []
+        for _, node in members:
+            gx = eff[list(node.generators), node.qubit] if degree else np.zeros(0, np.uint8)
+            gz = eff[list(node.generators), n + node.qubit] if degree else np.zeros(0, np.uint8)
+            fx.append((assign.astype(np.int64) @ gx) % 2 if degree else np.zeros(1, np.int64))
+            fz.append((assign.astype(np.int64) @ gz) % 2 if degree else np.zeros(1, np.int64))
+            vals.append(_value_table(table[node.qubit], node.mode))
+        groups.append(
+            _DegreeGroup(
+                degree=degree,
+                nodes=np.array([offset + j if offset >= 0 else -1 for j, _ in members]),
+                qubits=np.array([node.qubit for _, node in members]),
+                flip_x=np.array(fx, dtype=np.uint8),
+                flip_z=np.array(fz, dtype=np.uint8),
+                value=np.array(vals),
+            )
+        )
+    if offset < 0:
+        return groups[0] if groups else None
+    return groups
+
+
+def _value_table(row: np.ndarray, mode: str) -> np.ndarray:
+    """V[2 x + z] for one qubit node: full channel, or its X or Z marginal."""
+    full = np.array([row[column_of(x, z)] for x in (0, 1) for z in (0, 1)])
+    if mode == _FULL:
+        return full
+    px = full.reshape(2, 2).sum(axis=1)  # marginal of the X bit
+    pz = full.reshape(2, 2).sum(axis=0)
+    if mode == _XBIT:
+        return np.repeat(px, 2)
+    return np.tile(pz, 2)
+
+
+def _factorises(row: np.ndarray) -> bool:
+    p_i, p_x, p_y, p_z = row
+    return abs(p_i * p_y - p_x * p_z) <= FACTOR_TOLERANCE * max(row.max() ** 2, 1e-300)
+
+
+def _constraint_rows(table: np.ndarray) -> np.ndarray:
+    """Linear functionals on [x | z] that must vanish where a qubit's noise lives in a subgroup."""
+    n = table.shape[0]
+    rows = []
+    allowed = table > 0  # columns I, X, Y, Z
+    for q in range(n):
+        a_x, a_y, a_z = allowed[q, 1], allowed[q, 2], allowed[q, 3]
+        count = int(a_x) + int(a_y) + int(a_z)
+        if count >= 2:
+            continue
+        picks = []
+        if count == 0:
+            picks = [(1, 0), (0, 1)]
+        elif a_x:
+            picks = [(0, 1)]  # z bit must be 0
+        elif a_z:
+            picks = [(1, 0)]  # x bit must be 0
+        else:
+            picks = [(1, 1)]  # Y only: x + z must be 0
+        for cx, cz in picks:
+            row = np.zeros(2 * n, dtype=np.uint8)
+            row[q], row[n + q] = cx, cz
+            rows.append(row)
+    return np.array(rows, dtype=np.uint8).reshape(-1, 2 * n)
