@@ -36,7 +36,9 @@ def class_label(cls: tuple[int, ...]) -> str:
 
 
 def logical_classes(k: int) -> list[tuple[int, ...]]:
-    """All 4^k classes as (a_1, b_1, ..., a_k, b_k), identity first."""
+    """All 4^k classes as (a_1, b_1, ..., a_k, b_k), identity first (I, X, Y, Z for k = 1)."""
+    if k == 1:
+        return [(0, 0), (1, 0), (1, 1), (0, 1)]
     return [tuple(c) for c in itertools.product((0, 1), repeat=2 * k)]
 
 
