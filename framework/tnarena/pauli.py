@@ -11,6 +11,8 @@ from collections.abc import Mapping
 
 import numpy as np
 
+from tnarena.errors import TnarenaError
+
 PAULI_LABELS = ("I", "X", "Y", "Z")
 _BITS = {"I": (0, 0), "X": (1, 0), "Y": (1, 1), "Z": (0, 1)}
 
@@ -39,7 +41,7 @@ def from_string(text: str) -> np.ndarray:
     try:
         bits = [_BITS[c] for c in text.strip().upper()]
     except KeyError as exc:
-        raise ValueError(
+        raise TnarenaError(
             f"Pauli string {text!r} has the letter {exc.args[0]!r}; use only I, X, Y and Z."
         ) from None
     x = [b[0] for b in bits]
@@ -54,12 +56,12 @@ def from_sparse(support: Mapping[int | str, str], n: int) -> np.ndarray:
         try:
             q = int(key)
         except (TypeError, ValueError):
-            raise ValueError(f"qubit index {key!r} in a sparse Pauli is not an integer.") from None
+            raise TnarenaError(f"qubit index {key!r} in a sparse Pauli is not an integer.") from None
         if not 0 <= q < n:
-            raise ValueError(f"qubit index {q} in a sparse Pauli is outside 0..{n - 1}.")
+            raise TnarenaError(f"qubit index {q} in a sparse Pauli is outside 0..{n - 1}.")
         letter = str(letter).upper()
         if letter not in _BITS:
-            raise ValueError(f"qubit {q} in a sparse Pauli has {letter!r}; use I, X, Y or Z.")
+            raise TnarenaError(f"qubit {q} in a sparse Pauli has {letter!r}; use I, X, Y or Z.")
         vec[q], vec[n + q] = _BITS[letter]
     return vec
 

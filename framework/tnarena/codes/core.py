@@ -50,7 +50,7 @@ class PauliCode:
     metadata: dict[str, Any] = field(default_factory=dict)
 
     def __post_init__(self) -> None:
-        qpos = np.asarray(self.qubit_positions, dtype=float).reshape(-1, 2)
+        qpos = _positions(self.qubit_positions, "qubit_positions")
         n = qpos.shape[0]
         gens = _binary_matrix(self.generators, 2 * n, "generators")
         logs = np.asarray(self.logicals, dtype=np.int64)
@@ -73,7 +73,7 @@ class PauliCode:
         if self.generator_positions is None:
             gpos = _centroids(gens, qpos)
         else:
-            gpos = np.asarray(self.generator_positions, dtype=float).reshape(-1, 2)
+            gpos = _positions(self.generator_positions, "generator_positions")
             if gpos.shape[0] != gens.shape[0]:
                 raise TnarenaError(
                     f"{gpos.shape[0]} generator positions for {gens.shape[0]} generators."
@@ -108,6 +108,7 @@ class PauliCode:
 
     @property
     def stabilizer_indices(self) -> np.ndarray:
+        """Indices of the generators marked 'stabilizer', shape (s,)."""
         return np.array([i for i, k in enumerate(self.kinds) if k == STABILIZER], dtype=int)
 
     @property
@@ -175,17 +176,33 @@ class PauliCode:
             )
         rank_all = gf2.rank(gens) if gens.size else 0
         rank_stab = gf2.rank(gens[stab]) if stab.any() else 0
-        if (rank_all - rank_stab) % 2:
+        twice_gauge = gf2.rank(comm) if gens.size else 0  # 2 x number of gauge qubits
+        centre = rank_all - twice_gauge
+        if rank_stab != centre:
             raise TnarenaError(
-                f"the gauge group has rank {rank_all} over a stabilizer group of rank {rank_stab}; "
-                "mark as 'stabilizer' every generator in the centre of the gauge group."
+                f"the gauge group has a centre of rank {centre} but the generators marked "
+                f"'stabilizer' span rank {rank_stab}; mark as 'stabilizer' every generator "
+                "in the centre of the gauge group."
             )
-        k_expected = self.n - (rank_all + rank_stab) // 2
+        k_expected = self.n - rank_all + twice_gauge // 2
         if k_expected != self.k:
             raise TnarenaError(
                 f"the code has k = n - rank = {k_expected} logical qubits but {self.k} logical "
                 f"pairs were given; give exactly {k_expected}."
             )
+
+
+def _positions(value: Any, what: str) -> np.ndarray:
+    try:
+        arr = np.array(value, dtype=float)
+    except (TypeError, ValueError):
+        raise TnarenaError(f"{what} must be pairs of numbers (x, y).") from None
+    if arr.size % 2 or (arr.ndim == 2 and arr.shape[1] != 2) or arr.ndim > 2:
+        raise TnarenaError(f"{what} has shape {arr.shape}; give one (x, y) pair per entry.")
+    arr = arr.reshape(-1, 2)
+    if not np.isfinite(arr).all():
+        raise TnarenaError(f"{what} holds NaN or infinity; give finite coordinates.")
+    return arr
 
 
 def _logical_name(row: int) -> str:
