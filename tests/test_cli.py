@@ -108,3 +108,17 @@ def test_a_broken_plugin_makes_plugins_exit_nonzero(capsys, monkeypatch):
     monkeypatch.setattr(catalog_module.metadata, "entry_points", with_broken)
     code, out, _ = run(capsys, "plugins")
     assert code == 1 and "zz_broken" in out and "FAILED: ModuleNotFoundError" in out
+
+
+def test_noise_table_from_a_file(capsys, tmp_path):
+    """A user-supplied table equal to bit flip gives the same ln P as the bit_flip model."""
+    path = tmp_path / "noise.csv"
+    path.write_text("# P(I), P(X), P(Y), P(Z)\n" + "0.9, 0.1, 0, 0\n" * 13)
+    common = ("decode", "--size", "3", "--seed", "4", "--json", "--param", "search_time=0.1")
+    table = json.loads(run(capsys, *common, "--noise-table", str(path))[1])
+    model = json.loads(run(capsys, *common, "--noise", "bit_flip", "--rate", "0.1")[1])
+    assert table["noise"] == "table"
+    assert [c["log_prob"] for c in table["classes"]] == pytest.approx([c["log_prob"] for c in model["classes"]])
+    path.write_text("0.9, 0.1, 0\n")
+    code, _, err = run(capsys, *common, "--noise-table", str(path))
+    assert code == 2 and "has 3 numbers; give P(I) P(X) P(Y) P(Z)" in err

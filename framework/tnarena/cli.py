@@ -107,22 +107,51 @@ def _instance_options(p: argparse.ArgumentParser, *, noise: bool = True) -> None
         g.add_argument("--rate", type=float, default=0.1, help="error rate p (default: 0.1)")
         g.add_argument("--noise-option", action="append", default=[], metavar="KEY=VALUE",
                        help="noise model option, repeatable (e.g. --noise-option eta=10)")
+        g.add_argument("--noise-table", default=None, metavar="PATH",
+                       help="per-qubit probabilities: a CSV or whitespace file, n rows of P(I) P(X) P(Y) P(Z) "
+                            "(selects the 'table' model)")
 
 
 def _spec(args: argparse.Namespace) -> InstanceSpec:
     lattice = args.lattice
     if lattice is None and args.code == "surface":
         lattice = "square"
+    noise_options = _pairs(getattr(args, "noise_option", []), "--noise-option")
+    noise_name = getattr(args, "noise", "depolarizing")
+    if getattr(args, "noise_table", None):
+        noise_name, noise_options = "table", {"table": _read_table(args.noise_table)}
     return InstanceSpec(
         code=args.code,
         lattice=lattice,
         size=args.size,
-        noise=getattr(args, "noise", "depolarizing"),
+        noise=noise_name,
         rate=getattr(args, "rate", 0.1),
         seed=args.seed,
-        noise_options=_pairs(getattr(args, "noise_option", []), "--noise-option"),
+        noise_options=noise_options,
         code_file=args.code_file,
     )
+
+
+def _read_table(path: str) -> list[list[float]]:
+    """Rows of four probabilities from a CSV or whitespace-separated text file."""
+    try:
+        text = open(path, encoding="utf-8").read()
+    except OSError as exc:
+        raise TnarenaError(f"cannot read the noise table {path!r}: {exc.strerror}.") from None
+    rows = []
+    for number, line in enumerate(text.splitlines(), start=1):
+        line = line.split("#")[0].strip()
+        if not line:
+            continue
+        try:
+            rows.append([float(v) for v in line.replace(",", " ").split()])
+        except ValueError:
+            raise TnarenaError(f"line {number} of the noise table {path!r} is not four numbers.") from None
+        if len(rows[-1]) != 4:
+            raise TnarenaError(
+                f"line {number} of the noise table {path!r} has {len(rows[-1])} numbers; give P(I) P(X) P(Y) P(Z)."
+            )
+    return rows
 
 
 def _pairs(items: list[str], flag: str) -> dict[str, Any]:
@@ -242,7 +271,7 @@ def decode_instance(catalog: Catalog, spec: InstanceSpec, strategy: str, params:
         "distances": dict(code.distances),
         "noise": spec.noise,
         "rate": spec.rate,
-        "noise_options": spec.noise_options,
+        "noise_options": {k: v for k, v in spec.noise_options.items() if k != "table"},
         "seed": spec.seed,
         "strategy": strat.name,
         "params": decoder.params,
