@@ -1,0 +1,174 @@
+"""Geometry of a sweep: the order nodes are met and the order of bonds along the line.
+
+Everything here depends only on the network structure and the direction, so
+it is computed once per structure (the plan) and replayed on every set of
+arrays. The result is a list of :class:`WindowOp`: each rewrites a window of
+consecutive MPS sites, optionally absorbing one node's tensor.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+#: Projections closer than this (in position units) count as ties.
+TIE = 1e-9
+
+
+@dataclass(frozen=True)
+class WindowOp:
+    """Replace MPS sites [lo, hi) by new sites.
+
+    node : int
+        Node absorbed, or -1 for a plain rearrangement (a swap).
+    contract : tuple of (window site offset, node axis)
+        Window physical legs summed against the node's legs.
+    output : tuple of ('w', offset) or ('n', axis)
+        Physical legs of the new sites, in line order: a leg kept from the
+        window, or a free leg of the node.
+    """
+
+    lo: int
+    hi: int
+    node: int
+    contract: tuple[tuple[int, int], ...]
+    output: tuple[tuple[str, int], ...]
+
+
+@dataclass
+class SweepSchedule:
+    """The replayable sweep: its operations and what they cost in line length."""
+
+    ops: list[WindowOp]
+    direction: float  # degrees
+    max_line: int  # largest number of bonds crossing the line
+    swaps: int
+
+
+def sweep_order(positions: np.ndarray, degrees: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Node order along the direction (ties broken along the line).
+
+    Returns (order, t, s): t is the coordinate along the direction, s along the line.
+    """
+    a = math.radians(degrees)
+    u = np.array([math.cos(a), math.sin(a)])
+    w = np.array([-math.sin(a), math.cos(a)])
+    t = positions @ u
+    s = positions @ w
+    t_key = np.round(t / TIE) * TIE
+    order = np.lexsort((s, t_key))
+    return order, t, s
+
+
+def build_schedule(structure, degrees: float, nodes: list[int] | None = None) -> SweepSchedule:
+    """Simulate the sweep over ``nodes`` (default: all; they must hold every
+    neighbour of each of them) and record every window operation."""
+    pos = np.asarray(structure.positions, dtype=float)
+    order, t, s = sweep_order(pos, degrees)
+    if nodes is not None:
+        keep = np.zeros(len(pos), dtype=bool)
+        keep[nodes] = True
+        order = order[keep[order]]
+    rank = np.full(len(pos), -1, dtype=int)
+    rank[order] = np.arange(len(order))
+    bonds = structure.bonds
+    line: list[int] = []  # open bond ids in MPS order
+    ops: list[WindowOp] = []
+    max_line = 0
+    swaps = 0
+    for v in order:
+        v = int(v)
+        axes = structure.node_bonds[v]
+        incoming, outgoing = [], []
+        for axis, b in enumerate(axes):
+            other = int(bonds[b][0] if bonds[b][1] == v else bonds[b][1])
+            (incoming if rank[other] < rank[v] else outgoing).append((axis, b, other))
+        outgoing.sort(key=lambda item: _leaving_angle(pos[item[2]] - pos[v], degrees))
+        if incoming:
+            where = sorted(line.index(b) for _, b, _ in incoming)
+            swaps += _gather(line, where, ops)
+            lo = min(line.index(b) for _, b, _ in incoming)
+            hi = lo + len(incoming)
+        else:
+            lo = hi = _insertion_index(line, bonds, v, t, s, pos)
+        # a window with nothing left in it must borrow a neighbour to pass its bond on
+        if not outgoing and hi - lo == len(incoming) and len(line) > len(incoming):
+            if lo > 0:
+                lo -= 1
+            else:
+                hi += 1
+        if not incoming and line and lo == hi:
+            if lo > 0:
+                lo -= 1
+            else:
+                hi += 1
+        window = line[lo:hi]
+        axis_of = {b: axis for axis, b, _ in incoming}
+        contract = tuple((off, axis_of[b]) for off, b in enumerate(window) if b in axis_of)
+        kept = [("w", off) for off, b in enumerate(window) if b not in axis_of]
+        fresh = [("n", axis) for axis, _, _ in outgoing]
+        if incoming:
+            first = min(off for off, b in enumerate(window) if b in axis_of)
+            before = [k for k in kept if k[1] < first]
+            after = [k for k in kept if k[1] > first]
+            output = before + fresh + after
+        elif window and lo < _insertion_index(line, bonds, v, t, s, pos):
+            output = kept + fresh  # borrowed the left neighbour
+        else:
+            output = fresh + kept
+        ops.append(WindowOp(lo, hi, v, contract, tuple(output)))
+        new_bonds = [window[k[1]] if k[0] == "w" else axes[k[1]] for k in output]
+        line[lo:hi] = new_bonds
+        max_line = max(max_line, len(line))
+    return SweepSchedule(ops=ops, direction=degrees, max_line=max_line, swaps=swaps)
+
+
+def _leaving_angle(d: np.ndarray, degrees: float) -> float:
+    """Order in which bonds leaving a node cross a line just ahead of it (small s first)."""
+    a = math.radians(degrees)
+    along = d[0] * math.cos(a) + d[1] * math.sin(a)
+    across = -d[0] * math.sin(a) + d[1] * math.cos(a)
+    if along <= TIE:
+        return math.copysign(math.pi / 2, across) if across else math.pi / 2
+    return math.atan2(across, along)
+
+
+def _gather(line: list[int], where: list[int], ops: list[WindowOp]) -> int:
+    """Swap sites so the sites at ``where`` (sorted) become consecutive; returns swaps made."""
+    count = 0
+    target = where[len(where) // 2] - len(where) // 2  # gather around the median
+    for k, idx in enumerate(where):
+        dest = target + k
+        pos_now = idx
+        while pos_now > dest:
+            _swap(line, pos_now - 1, ops)
+            pos_now -= 1
+            count += 1
+        while pos_now < dest:
+            _swap(line, pos_now, ops)
+            pos_now += 1
+            count += 1
+    return count
+
+
+def _swap(line: list[int], i: int, ops: list[WindowOp]) -> None:
+    ops.append(WindowOp(i, i + 2, -1, (), (("w", 1), ("w", 0))))
+    line[i], line[i + 1] = line[i + 1], line[i]
+
+
+def _insertion_index(line, bonds, v, t, s, pos) -> int:
+    """Where a node with no absorbed neighbour enters the line: by where open bonds cross it."""
+    if not line:
+        return 0
+    tv, sv = t[v], s[v]
+    for i, b in enumerate(line):
+        x, y = int(bonds[b][0]), int(bonds[b][1])
+        if t[x] > t[y]:
+            x, y = y, x
+        span = t[y] - t[x]
+        crossing = s[x] if span <= TIE else s[x] + (tv - t[x]) * (s[y] - s[x]) / span
+        if crossing > sv:
+            return i
+    return len(line)
