@@ -48,10 +48,11 @@ class ExactTree(Strategy):
     summary = "exact contraction along a hypergraph-partitioned tree (cotengra + kahypar)"
     exact = True
     parameters = (
-        Parameter("method", "str", "auto", "tree search: kahypar partitioning, greedy, or auto (kahypar if installed)",
-                  choices=("auto", "kahypar", "greedy")),
+        Parameter("method", "str", "auto",
+                  "tree search: auto (kahypar partitions and greedy trials, best kept), kahypar, or greedy (one "
+                  "instant greedy tree)", choices=("auto", "kahypar", "greedy")),
         Parameter("search_time", "float", 2.0, "wall-clock budget of the tree search, seconds", minimum=0.0),
-        Parameter("max_repeats", "int", 32, "most trial trees the search draws", minimum=1, maximum=100000),
+        Parameter("max_repeats", "int", 64, "most trial trees the search draws", minimum=1, maximum=100000),
         Parameter("reconfigure", "bool", False, "refine the best tree by subtree reconfiguration (slow at scale)"),
         Parameter("max_intermediate", "float", 2.0**27,
                   "largest intermediate tensor allowed, in elements (2^27 float64 = 1 GiB)", minimum=1.0),
@@ -69,8 +70,11 @@ class ExactTree(Strategy):
         if method == "greedy" or len(inputs) <= 2:
             optimizer: Any = "greedy"
         else:
+            # kahypar alone draws many poor partitions on planar networks within a
+            # short budget; racing it against greedy trials keeps the best of both
+            methods = ["kahypar", "greedy"] if method == "auto" else ["kahypar"]
             optimizer = ctg.HyperOptimizer(
-                methods=[method],
+                methods=methods,
                 max_repeats=params["max_repeats"],
                 max_time=params["search_time"] if params["search_time"] > 0 else None,
                 reconf_opts={} if params["reconfigure"] else None,
@@ -80,7 +84,12 @@ class ExactTree(Strategy):
                 progbar=False,
                 seed=params["seed"],
             )
-        tree = ctg.array_contract_tree(inputs, (), size_dict, optimize=optimizer)
+        tree = ctg.array_contract_tree(inputs, (), size_dict, optimize="greedy")
+        if optimizer != "greedy":
+            # a short search budget may end before its first good trial: keep greedy as a floor
+            searched = ctg.array_contract_tree(inputs, (), size_dict, optimize=optimizer)
+            if (searched.contraction_cost(), searched.max_size()) < (tree.contraction_cost(), tree.max_size()):
+                tree = searched
         largest = float(tree.max_size())
         if largest > params["max_intermediate"]:
             raise TnarenaError(
@@ -113,11 +122,12 @@ class ExactTree(Strategy):
 
 
 def _choose_method(requested: str) -> str:
+    """'auto', 'kahypar' or 'greedy', falling back to greedy (said once) without kahypar."""
     global _WARNED
     if requested == "greedy":
         return "greedy"
     if kahypar_available():
-        return "kahypar"
+        return requested
     if requested == "kahypar":
         raise TnarenaError(
             "strategy 'exact' with method=kahypar needs the kahypar package; "

@@ -1,0 +1,166 @@
+"""The sweep-line strategy against the exact strategy, Onsager's free energy, and refusals."""
+
+import math
+
+import numpy as np
+import pytest
+from scipy import integrate
+
+from tnarena.decode import Decoder
+from tnarena.errors import TnarenaError
+from tnarena.lattices import LATTICE_FAMILIES
+from tnarena.network import NetworkBuilder, copy_tensor
+from tnarena.network.structure import GENERATOR, QUBIT, DecodingNetwork, NetworkStructure
+from tnarena.noise import make_noise, sample_errors
+
+NOISE = [
+    ("bit_flip", {}), ("phase_flip", {}), ("depolarizing", {}), ("biased", {"eta": 4.0}),
+    ("independent_xz", {"z_rate": 0.05}), ("inhomogeneous", {}),
+]
+SMALL = {"truncated_hexagonal": 2}
+
+
+def _pair(catalog, structure, chi=64, **extra):
+    ex, sw = catalog.strategy("exact"), catalog.strategy("sweep")
+    return (ex, ex.plan(structure, ex.resolve({"search_time": 0.1}))), (
+        sw, sw.plan(structure, sw.resolve({"chi": chi, **extra})))
+
+
+@pytest.mark.parametrize("lattice", sorted(LATTICE_FAMILIES))
+def test_sweep_at_large_chi_equals_exact_on_every_lattice(catalog, lattice):
+    """Issue 3: at chi = 64 the sweep equals the exact strategy to 1e-10 relative in ln, every noise model
+    (exact: cotengra + kahypar, checked against brute force in test_exact_tree.py)."""
+    code = catalog.build_code("surface", lattice, SMALL.get(lattice, 3), seed=4)
+    rng = np.random.default_rng(8)
+    for name, options in NOISE:
+        table = make_noise(name, code.n, 0.12, seed=2, **options)
+        builder = NetworkBuilder(code, table)
+        (ex, pe), (sw, ps) = _pair(catalog, builder.structure)
+        error = sample_errors(table, rng)
+        for cls in [(0, 0), (1, 0), (1, 1), (0, 1)]:
+            network = builder.network(error, cls)
+            if network.is_zero:
+                continue
+            want = ex.contract(pe, network).log_value + network.log_scale
+            got = sw.contract(ps, network).log_value + network.log_scale
+            assert got == pytest.approx(want, rel=1e-10), (name, cls)
+
+
+@pytest.mark.parametrize("direction", ["0", "90", "180", "270", "33.3", "auto"])
+def test_every_direction_gives_the_same_value(catalog, direction):
+    """Directions with ties (0, 90, ...) and without (33.3) agree with exact at large chi."""
+    code = catalog.build_code("color_666", None, 5)
+    table = make_noise("depolarizing", code.n, 0.1)
+    builder = NetworkBuilder(code, table)
+    (ex, pe), (sw, ps) = _pair(catalog, builder.structure, direction=direction)
+    network = builder.network(sample_errors(table, np.random.default_rng(1)))
+    assert sw.contract(ps, network).log_value == pytest.approx(ex.contract(pe, network).log_value, rel=1e-10)
+
+
+def test_auto_direction_minimises_the_line(catalog):
+    """'auto' picks, among its candidate angles, one whose largest line is smallest."""
+    code = catalog.build_code("surface", "square", 5)
+    builder = NetworkBuilder(code, make_noise("depolarizing", code.n, 0.1))
+    sw = catalog.strategy("sweep")
+    auto = sw.plan(builder.structure, sw.resolve({"direction": "auto"})).max_line
+    for angle in (0, 45, 90, 135):
+        assert auto <= sw.plan(builder.structure, sw.resolve({"direction": str(angle)})).max_line
+
+
+def test_decisions_agree_with_exact_at_chi_8(catalog):
+    """Issue 3: square planar code d = 7, bit flip p = 0.1, chi = 8: >= 99% of 200 decisions agree with exact."""
+    code = catalog.build_code("surface", "square", 7)
+    table = make_noise("bit_flip", code.n, 0.1)
+    exact = Decoder(code, table, catalog.strategy("exact"), {"search_time": 0.2})
+    sweep = Decoder(code, table, catalog.strategy("sweep"), {"chi": 8})
+    agree = 0
+    for seed in range(200):
+        error = sample_errors(table, np.random.default_rng(seed))
+        agree += exact.decode_error(error).decision == sweep.decode_error(error).decision
+    assert agree >= 198
+
+
+@pytest.mark.parametrize("lattice", ["square", "hexagonal", "delaunay"])
+def test_error_does_not_grow_with_chi(catalog, lattice):
+    """Issue 3: mean |error in ln P| over 50 seeded instances does not grow as chi goes 2, 4, 8, 16."""
+    code = catalog.build_code("surface", lattice, 5, seed=1)
+    table = make_noise("depolarizing", code.n, 0.12)
+    builder = NetworkBuilder(code, table)
+    ex, sw = catalog.strategy("exact"), catalog.strategy("sweep")
+    pe = ex.plan(builder.structure, ex.resolve({"search_time": 0.2}))
+    plans = {chi: sw.plan(builder.structure, sw.resolve({"chi": chi})) for chi in (2, 4, 8, 16)}
+    errors = {chi: [] for chi in plans}
+    for seed in range(50):
+        network = builder.network(sample_errors(table, np.random.default_rng(seed)))
+        want = ex.contract(pe, network).log_value
+        for chi, plan in plans.items():
+            errors[chi].append(abs(sw.contract(plan, network).log_value - want))
+    means = [np.mean(errors[chi]) for chi in (2, 4, 8, 16)]
+    assert all(b <= a * (1 + 1e-9) + 1e-12 for a, b in zip(means, means[1:])), means
+    assert means[-1] < 1e-3
+
+
+def ising_network(length: int, beta: float) -> DecodingNetwork:
+    """Open L x L Ising model in the framework's own network type: spins are COPY nodes,
+    each bond a degree-2 node holding exp(beta sigma sigma') (general positioned network)."""
+    spin = {(i, j): i * length + j for i in range(length) for j in range(length)}
+    kinds, positions, bonds, node_bonds = [], [], [], []
+    for (i, j) in spin:
+        kinds.append(GENERATOR)
+        positions.append((float(i), float(j)))
+        node_bonds.append([])
+    weight = np.array([[math.exp(beta), math.exp(-beta)], [math.exp(-beta), math.exp(beta)]])
+    arrays_bond = []
+    for (i, j), a in spin.items():
+        for di, dj in ((1, 0), (0, 1)):
+            if (i + di, j + dj) in spin:
+                b_node = len(kinds)
+                kinds.append(QUBIT)
+                positions.append((i + di / 2, j + dj / 2))
+                mine = []
+                for s in (a, spin[(i + di, j + dj)]):
+                    bonds.append((s, b_node))
+                    node_bonds[s].append(len(bonds) - 1)
+                    mine.append(len(bonds) - 1)
+                node_bonds.append(mine)
+                arrays_bond.append(weight)
+    structure = NetworkStructure(
+        kinds=tuple(kinds), labels=tuple(range(len(kinds))), positions=np.array(positions),
+        bonds=np.array(bonds), node_bonds=tuple(tuple(b) for b in node_bonds),
+    )
+    arrays = [copy_tensor(len(node_bonds[s])) for s in range(len(spin))] + arrays_bond
+    return DecodingNetwork(structure, tuple(arrays), 0.0)
+
+
+def onsager_free_energy(beta: float) -> float:
+    """REFERENCES 1 (Onsager 1944): -beta f = ln 2 + 1/(8 pi^2) int int ln[cosh^2 2b - sinh 2b (cos t1 + cos t2)]."""
+    c, s = math.cosh(2 * beta) ** 2, math.sinh(2 * beta)
+    value, _ = integrate.dblquad(lambda t1, t2: math.log(c - s * (math.cos(t1) + math.cos(t2))),
+                                 0, 2 * math.pi, 0, 2 * math.pi, epsabs=1e-12, epsrel=1e-12)
+    return math.log(2) + value / (8 * math.pi**2)
+
+
+@pytest.mark.parametrize("beta", [0.3, 0.6])
+def test_ising_free_energy_matches_onsager(catalog, beta):
+    """REFERENCES 1: ln Z / L^2 of open L x L Ising networks, L = 64, 80, 96, fitted as a + b/L (surface term),
+    gives a = -beta f within 1e-3."""
+    sw = catalog.strategy("sweep")
+    sizes = [64, 80, 96]
+    per_site = []
+    for length in sizes:
+        network = ising_network(length, beta)
+        plan = sw.plan(network.structure, sw.resolve({"chi": 8, "direction": "0"}))
+        per_site.append(sw.contract(plan, network).log_value / length**2)
+    slope, intercept = np.polyfit(1.0 / np.array(sizes), per_site, 1)
+    assert intercept == pytest.approx(onsager_free_energy(beta), abs=1e-3)
+
+
+@pytest.mark.parametrize("params, message", [
+    ({"chi": 0}, "parameter 'chi' = 0 is outside its range"),
+    ({"direction": "north"}, "takes an angle in degrees or 'auto', not 'north'"),
+    ({"cutoff": -1.0}, "parameter 'cutoff' = -1.0 is outside its range"),
+    ({"bond": 3}, "has no parameter 'bond'; its parameters are: chi, direction, cutoff"),
+])
+def test_bad_parameters_are_refused(catalog, params, message):
+    with pytest.raises(TnarenaError, match=message):
+        catalog.strategy("sweep").resolve(params)
