@@ -30,6 +30,7 @@ examples:
   tnarena decode --size 5 --noise biased --noise-option eta=10 --param search_time=0.5 --json
   tnarena decode --code-file mycode.json --noise depolarizing --rate 0.05
   tnarena write-code --code surface --lattice kagome --size 3 -o kagome3.json
+  tnarena new-plugin my_sweep --dir plugins   write a strategy plugin to start from
   tnarena demo                          decode a few seeded instances with the defaults
 
 A decode draws one error from the noise model (seeded), computes ln P of every
@@ -87,6 +88,13 @@ def _parser() -> argparse.ArgumentParser:
     _instance_options(p, noise=False)
     p.add_argument("-o", "--output", required=True, help="file to write")
     p.set_defaults(run=_run_write_code)
+
+    p = sub.add_parser("new-plugin", help="write a new strategy plugin folder (pyproject, module, test)",
+                       formatter_class=argparse.RawDescriptionHelpFormatter,
+                       epilog="Then: pip install -e DIR/NAME, and `tnarena plugins` lists it.")
+    p.add_argument("name", help="strategy and entry-point name, a lowercase identifier")
+    p.add_argument("--dir", default=".", help="folder to create it in (default: here)")
+    p.set_defaults(run=_run_new_plugin)
 
     p = sub.add_parser("demo", help="decode a few seeded instances on built-in defaults")
     p.set_defaults(run=_run_demo)
@@ -231,6 +239,15 @@ def _run_write_code(args: argparse.Namespace) -> int:
     code = _spec(args).build_code(catalog)
     write_code_json(code, args.output)
     print(f"wrote {code.summary()} to {args.output}")
+    return 0
+
+
+def _run_new_plugin(args: argparse.Namespace) -> int:
+    from tnarena.scaffold import scaffold_strategy
+
+    root = scaffold_strategy(args.name, args.dir)
+    print(f"wrote {root}/: pyproject.toml (entry point '{args.name}'), tnarena_{args.name}/__init__.py, tests/")
+    print(f"next: {sys.executable} -m pip install -e {root}  &&  tnarena plugins")
     return 0
 
 
