@@ -71,7 +71,7 @@ def test_write_code_then_decode_it(capsys, tmp_path):
     "argv, message",
     [
         (["decode", "--lattice", "penrose"], "lattice 'penrose' is unknown; known:"),
-        (["decode", "--strategy", "magic"], "strategy 'magic' is unknown; known: exact"),
+        (["decode", "--strategy", "magic"], "strategy 'magic' is unknown; known: "),
         (["decode", "--rate", "1.5"], "outside [0, 1]"),
         (["decode", "--noise", "gaussian"], "noise model 'gaussian' is unknown"),
         (["decode", "--param", "chi"], "--param 'chi' is not KEY=VALUE"),

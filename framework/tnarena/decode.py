@@ -76,6 +76,34 @@ class DecodeResult:
         return {c.label: float(w) for c, w in zip(self.classes, weights)}
 
 
+class SyndromeSolver:
+    """Pure errors from syndromes: one GF(2) elimination of the stabilizer matrix, reused."""
+
+    def __init__(self, code: PauliCode) -> None:
+        self.code = code
+        stab, n = code.stabilizers, code.n
+        # syndrome_i = <g_i, E> = g_i,x . E_z + g_i,z . E_x, linear in E = [x | z]
+        self._solver = _LinearSolver(np.concatenate([stab[:, n:], stab[:, :n]], axis=1))
+
+    def pure_error(self, syndrome: np.ndarray) -> np.ndarray:
+        """An error (shape (2n,)) with the given syndrome (shape (s,), 0/1)."""
+        s = np.asarray(syndrome).reshape(-1)
+        expected = self.code.stabilizers.shape[0]
+        if s.size != expected:
+            raise TnarenaError(
+                f"the syndrome has {s.size} bits but the code has {expected} stabilizer generators."
+            )
+        if not np.isin(s, (0, 1)).all():
+            raise TnarenaError("a syndrome holds only 0 and 1.")
+        error = self._solver.solve(s.astype(np.uint8))
+        if error is None:
+            raise TnarenaError(
+                "no Pauli error has this syndrome (the stabilizer generators are dependent "
+                "and the syndrome breaks a relation between them); check the syndrome."
+            )
+        return error
+
+
 class Decoder:
     """ML decoder for one code, noise table and strategy setting.
 
@@ -93,31 +121,14 @@ class Decoder:
         self.strategy = strategy
         self.params = strategy.resolve(params)
         self.builder = NetworkBuilder(code, noise)
-        stab = code.stabilizers
-        n = code.n
-        # syndrome_i = <g_i, E> = g_i,x . E_z + g_i,z . E_x, linear in E = [x | z]
-        self._syndrome_solver = _LinearSolver(np.concatenate([stab[:, n:], stab[:, :n]], axis=1))
+        self.syndromes = SyndromeSolver(code)
         start = time.perf_counter()
         self.plan = _call(strategy, "plan", self.builder.structure, self.params)
         self.plan_seconds = time.perf_counter() - start
 
     def pure_error(self, syndrome: np.ndarray) -> np.ndarray:
         """An error (shape (2n,)) with the given syndrome (shape (s,), 0/1)."""
-        s = np.asarray(syndrome).reshape(-1)
-        expected = self.code.stabilizers.shape[0]
-        if s.size != expected:
-            raise TnarenaError(
-                f"the syndrome has {s.size} bits but the code has {expected} stabilizer generators."
-            )
-        if not np.isin(s, (0, 1)).all():
-            raise TnarenaError("a syndrome holds only 0 and 1.")
-        error = self._syndrome_solver.solve(s.astype(np.uint8))
-        if error is None:
-            raise TnarenaError(
-                "no Pauli error has this syndrome (the stabilizer generators are dependent "
-                "and the syndrome breaks a relation between them); check the syndrome."
-            )
-        return error
+        return self.syndromes.pure_error(syndrome)
 
     def true_class(self, error: np.ndarray, pure: np.ndarray) -> tuple[int, ...]:
         """Logical class of ``error`` relative to the pure error of its syndrome."""

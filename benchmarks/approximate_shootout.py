@@ -1,0 +1,150 @@
+"""Approximate strategies head to head on identical syndromes: time and accuracy against chi.
+
+Square-lattice planar code at sizes 9, 15, 25; bit flip p = 0.1 and depolarizing p = 0.15;
+the same seeded syndromes for every strategy. The reference is the exact strategy where
+its plan fits the memory budget, otherwise the sweep at chi = 64 (flagged in the table).
+
+    .venv/bin/python benchmarks/approximate_shootout.py            # full run (long)
+    .venv/bin/python benchmarks/approximate_shootout.py --sizes 9 --syndromes 5
+
+Prints, per (size, noise): for each strategy and chi, the median contraction time per
+syndrome (all classes that can be non-zero) and the mean |error in ln P| per class; then
+the target check: the sweep's time to reach the better quimb baseline's accuracy, and the
+sweep's time against the number of qubits at fixed chi (fitted exponent).
+"""
+
+from __future__ import annotations
+
+import argparse
+import math
+import sys
+import time
+
+import numpy as np
+
+from tnarena.catalog import load_catalog
+from tnarena.errors import TnarenaError
+from tnarena.network import NetworkBuilder
+from tnarena.noise import make_noise, sample_errors
+
+BASELINES = ("quimb_boundary", "quimb_compressed")
+APPROXIMATE = ("sweep", "columns") + BASELINES
+
+
+def networks_for(code, table, syndromes: int, seed: int):
+    """The non-zero class networks of ``syndromes`` seeded sampled errors, grouped by syndrome."""
+    from tnarena.decode import SyndromeSolver, logical_classes
+
+    builder = NetworkBuilder(code, table)
+    solver = SyndromeSolver(code)
+    groups = []
+    for s in range(syndromes):
+        error = sample_errors(table, np.random.default_rng(np.random.SeedSequence([seed, s])))
+        e_s = solver.pure_error(code.syndrome(error))
+        nets = [builder.network(e_s, c) for c in logical_classes(code.k)]
+        groups.append([n for n in nets if not n.is_zero])
+    return builder.structure, groups
+
+
+def run_setting(strategy, params, structure, groups):
+    """(plan seconds, median seconds per syndrome, log values per class), or an error string."""
+    start = time.perf_counter()
+    try:
+        plan = strategy.plan(structure, strategy.resolve(params))
+    except TnarenaError as exc:
+        return str(exc)
+    plan_s = time.perf_counter() - start
+    times, values = [], []
+    for nets in groups:
+        start = time.perf_counter()
+        vals = [strategy.contract(plan, n).log_value + n.log_scale for n in nets]
+        times.append(time.perf_counter() - start)
+        values.append(vals)
+    return plan_s, float(np.median(times)), values
+
+
+def mean_error(values, reference):
+    diffs = [abs(v - r) for vs, rs in zip(values, reference) for v, r in zip(vs, rs)]
+    return float(np.mean(diffs))
+
+
+def main(argv=None) -> int:
+    ap = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
+    ap.add_argument("--sizes", type=int, nargs="+", default=[9, 15, 25])
+    ap.add_argument("--chis", type=int, nargs="+", default=[4, 8, 16, 32])
+    ap.add_argument("--syndromes", type=int, default=20, help="seeded syndromes per setting (default 20)")
+    ap.add_argument("--seed", type=int, default=2026)
+    ap.add_argument("--strategies", nargs="+", default=list(APPROXIMATE))
+    args = ap.parse_args(argv)
+    catalog = load_catalog()
+    names = [s for s in args.strategies if s in catalog.strategies]
+    missing = sorted(set(args.strategies) - set(names))
+    if missing:
+        print(f"(not installed, left out: {', '.join(missing)})")
+    scaling: dict[tuple[str, int], list[tuple[int, float]]] = {}
+    for size in args.sizes:
+        code = catalog.build_code("surface", "square", size)
+        for noise, rate in (("bit_flip", 0.1), ("depolarizing", 0.15)):
+            table = make_noise(noise, code.n, rate)
+            structure, groups = networks_for(code, table, args.syndromes, args.seed)
+            print(f"\n== d = {size} (n = {code.n}), {noise} p = {rate}, {args.syndromes} syndromes", flush=True)
+            ref = run_setting(catalog.strategy("exact"), {"search_time": 2.0}, structure, groups)
+            ref_label = "exact"
+            if isinstance(ref, str):
+                print(f"   exact refused ({ref.split(';')[0]}); reference = sweep chi=64 (converged setting)")
+                ref = run_setting(catalog.strategy("sweep"), {"chi": 64}, structure, groups)
+                ref_label = "sweep chi=64"
+            else:
+                print(f"   exact: plan {ref[0]:.2f} s, {1e3 * ref[1]:.1f} ms per syndrome")
+            reference = ref[2]
+            print(f"   {'strategy':<18}{'chi':>5}{'plan [s]':>10}{'ms/syndrome':>14}{'mean |d ln P|':>16}   vs {ref_label}")
+            results = {}
+            for name in names:
+                for chi in args.chis:
+                    print(f"   ... {name} chi={chi}", file=sys.stderr, flush=True)
+                    out = run_setting(catalog.strategy(name), {"chi": chi}, structure, groups)
+                    if isinstance(out, str):
+                        print(f"   {name:<18}{chi:>5}   refused: {out}")
+                        continue
+                    err = mean_error(out[2], reference)
+                    results[(name, chi)] = (out[1], err)
+                    print(f"   {name:<18}{chi:>5}{out[0]:>10.2f}{1e3 * out[1]:>14.2f}{err:>16.2e}", flush=True)
+                    scaling.setdefault((name, chi), []).append((code.n, out[1]))
+            _target(results, args.chis)
+    _scaling(scaling)
+    return 0
+
+
+def _target(results, chis) -> None:
+    """Sweep time to reach the better quimb baseline's accuracy, against that baseline's time."""
+    base = [(err, t, name, chi) for (name, chi), (t, err) in results.items() if name in BASELINES]
+    if not base or not any(n == "sweep" for n, _ in results):
+        return
+    best_err = min(b[0] for b in base)
+    # the baseline's cheapest setting reaching its best accuracy (within a factor 2)
+    err_b, t_b, name_b, chi_b = min((b for b in base if b[0] <= 2 * best_err + 1e-14), key=lambda b: b[1])
+    sweep = sorted((chi, t, err) for (n, chi), (t, err) in results.items() if n == "sweep")
+    hit = next(((chi, t, err) for chi, t, err in sweep if err <= err_b), None)
+    if hit is None:
+        print(f"   target: the sweep never reaches {name_b} chi={chi_b}'s error {err_b:.1e} at chi <= {max(chis)}: MISSED")
+        return
+    ratio = t_b / hit[1]
+    verdict = "met" if ratio >= 5 else "MISSED"
+    print(f"   target: sweep chi={hit[0]} reaches {name_b} chi={chi_b}'s error {err_b:.1e} "
+          f"{ratio:.1f}x faster ({1e3 * hit[1]:.1f} vs {1e3 * t_b:.1f} ms): {verdict} (target 5x)")
+
+
+def _scaling(scaling) -> None:
+    print("\n== time per syndrome against qubits at fixed chi (fitted exponent of t ~ n^a)")
+    for (name, chi), points in sorted(scaling.items()):
+        ns = sorted({n for n, _ in points})
+        if len(ns) < 2:
+            continue
+        # both noise models are pooled per n by taking the larger time
+        per_n = {n: max(t for m, t in points if m == n) for n in ns}
+        a = np.polyfit(np.log(ns), np.log([per_n[n] for n in ns]), 1)[0]
+        print(f"   {name:<18} chi={chi:<3} exponent {a:.2f}  ({', '.join(f'n={n}: {1e3 * per_n[n]:.1f} ms' for n in ns)})")
+
+
+if __name__ == "__main__":
+    sys.exit(main())
