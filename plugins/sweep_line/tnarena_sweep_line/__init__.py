@@ -19,6 +19,7 @@ from typing import Any
 import numpy as np
 
 import tnarena
+from tnarena.blas import one_blas_thread
 from tnarena.errors import TnarenaError
 from tnarena.network import DecodingNetwork, NetworkStructure
 from tnarena.strategy import Estimate, Parameter, Strategy
@@ -91,6 +92,10 @@ class SweepLine(Strategy):
         return SweepPlan(schedules, steps, int(params["chi"]), float(params["cutoff"]))
 
     def contract(self, plan: SweepPlan, network: DecodingNetwork) -> Estimate:
+        with one_blas_thread():  # many small SVDs: threads only wait on each other
+            return self._contract(plan, network)
+
+    def _contract(self, plan: SweepPlan, network: DecodingNetwork) -> Estimate:
         arrays = network.arrays
         log_value, flops, largest, discarded = 0.0, 0.0, 1, 0.0
         for steps in plan.steps:
