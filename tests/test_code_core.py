@@ -18,6 +18,7 @@ import pytest
 
 from tnarena.codes.core import GAUGE, STABILIZER, PauliCode
 from tnarena.errors import TnarenaError
+from reference import gf2_rank as _rank_gf2  # independent bitmask elimination (test side)
 
 _BITS = {"I": (0, 0), "X": (1, 0), "Y": (1, 1), "Z": (0, 1)}
 
@@ -49,25 +50,6 @@ def _code(n: int, generators, kinds, logicals, **extra) -> PauliCode:
         logicals=logicals,
         **extra,
     )
-
-
-def _rank_gf2(rows: np.ndarray) -> int:
-    """Rank over GF(2) by Gauss-Jordan elimination on a copy of the rows."""
-    m = (np.array(rows, dtype=np.uint8) % 2).copy()
-    rank = 0
-    for col in range(m.shape[1]):
-        pivots = np.flatnonzero(m[rank:, col])
-        if pivots.size == 0:
-            continue
-        p = rank + int(pivots[0])
-        m[[rank, p]] = m[[p, rank]]
-        hit = np.flatnonzero(m[:, col])
-        hit = hit[hit != rank]
-        m[hit] ^= m[rank]
-        rank += 1
-        if rank == m.shape[0]:
-            break
-    return rank
 
 
 # 2 x 2 Bacon-Shor-like subsystem code, qubits  0 1 / 2 3:

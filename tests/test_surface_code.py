@@ -21,6 +21,7 @@ import numpy as np
 import pytest
 
 from tnarena.codes.surface import planar_surface_code
+from reference import gf2_rank as _rank_gf2  # independent bitmask elimination (test side)
 from tnarena.lattices import (
     LATTICE_FAMILIES,
     build_lattice,
@@ -51,25 +52,6 @@ def _code(catalog, lattice: str, size: int, seed: int = 0):
 
 
 # ---- independent GF(2) and symplectic algebra --------------------------------------
-
-
-def _rank_gf2(rows: np.ndarray) -> int:
-    """Rank over GF(2) by Gauss-Jordan elimination on a copy of the rows."""
-    m = (np.array(rows, dtype=np.uint8) % 2).copy()
-    rank = 0
-    for col in range(m.shape[1] if m.ndim == 2 else 0):
-        pivots = np.flatnonzero(m[rank:, col])
-        if pivots.size == 0:
-            continue
-        p = rank + int(pivots[0])
-        m[[rank, p]] = m[[p, rank]]
-        hit = np.flatnonzero(m[:, col])
-        hit = hit[hit != rank]
-        m[hit] ^= m[rank]
-        rank += 1
-        if rank == m.shape[0]:
-            break
-    return rank
 
 
 def _symplectic(a: np.ndarray, b: np.ndarray) -> np.ndarray:
