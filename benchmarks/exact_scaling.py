@@ -311,6 +311,10 @@ def parse_args(argv=None) -> argparse.Namespace:
                    help="stop growing d once one syndrome takes longer than this")
     p.add_argument("--method", choices=("auto", "kahypar", "greedy"), default="auto",
                    help="tree search of the exact strategy for the scaling tables")
+    p.add_argument("--threads", type=int, default=0,
+                   help="BLAS/OpenMP threads of the worker processes (sets OPENBLAS_NUM_THREADS, "
+                        "OMP_NUM_THREADS, MKL_NUM_THREADS); 0 leaves the environment as it is. "
+                        "1 is steadier when other processes share the cores")
     p.add_argument("--noise", choices=NOISE_MODELS, action="append", default=argparse.SUPPRESS,
                    help="noise model(s) of the scaling tables (repeatable; default both)")
     p.add_argument("--budget-case", action="append", default=argparse.SUPPRESS,
@@ -319,8 +323,8 @@ def parse_args(argv=None) -> argparse.Namespace:
     p.add_argument("--budget-times", type=float, nargs="+", default=[0.5, 2.0, 8.0],
                    help="search budgets (s) compared side by side")
     args = p.parse_args(argv)
-    if args.repeats < 1 or args.max_d < 3:
-        p.error("--repeats must be >= 1 and --max-d >= 3")
+    if args.repeats < 1 or args.max_d < 3 or args.threads < 0:
+        p.error("--repeats must be >= 1, --max-d >= 3 and --threads >= 0")
     args.noise = getattr(args, "noise", None) or list(NOISE_MODELS)
     args.budget_case = getattr(args, "budget_case", None) or ["depolarizing:9", "bit_flip:17"]
     return args
@@ -346,12 +350,16 @@ def main(argv=None) -> None:
     from tnarena_exact_tree import kahypar_available
 
     load_catalog(strict=True)  # fail here, once, if a plugin is broken
+    if args.threads > 0:  # read by the spawned workers when they import numpy
+        for var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
+            os.environ[var] = str(args.threads)
+    threads = os.environ.get("OPENBLAS_NUM_THREADS", "default")
     began = time.perf_counter()
     print("exact_scaling: square-lattice planar code, exact ML decoding")
     print(f"command: {' '.join([os.path.basename(sys.executable)] + sys.argv)}; commit {_commit()}")
     print(
         f"python {platform.python_version()}, numpy {np.__version__}, cotengra {cotengra.__version__}, "
-        f"kahypar {'yes' if kahypar_available() else 'no'}, {os.cpu_count()} CPUs, "
+        f"kahypar {'yes' if kahypar_available() else 'no'}, {os.cpu_count()} CPUs, BLAS threads {threads}, "
         f"load average at start {os.getloadavg()[0]:.2f}"
     )
     print(

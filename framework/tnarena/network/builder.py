@@ -80,10 +80,13 @@ class NetworkBuilder:
         n, gens = code.n, code.generators
         m = gens.shape[0]
         self._constraints = _constraint_rows(self.table)
-        coupling = (self._constraints.astype(np.int64) @ gens.T.astype(np.int64)) % 2
+        self._constraints_f = self._constraints.astype(float)
+        # float64 products of 0/1 matrices are exact here and far faster than int64 ones
+        coupling = (self._constraints.astype(float) @ gens.T.astype(float)).astype(np.int64) % 2
         free = np.flatnonzero(~coupling.any(axis=0))
         fixed = np.flatnonzero(coupling.any(axis=0))
         self._fixed_gens = gens[fixed]
+        self._fixed_gens_f = self._fixed_gens.astype(float)
         m_fixed = coupling[:, fixed].astype(np.uint8)
         self._solver = _LinearSolver(m_fixed)
         combos = (gf2.nullspace(m_fixed).astype(np.int64) @ self._fixed_gens) % 2 if fixed.size else []
@@ -162,12 +165,12 @@ class NetworkBuilder:
         arrays: list[np.ndarray | None] = list(self._copies) + [None] * (
             self.structure.num_nodes - len(self._copies)
         )
-        b = (self._constraints.astype(np.int64) @ base) % 2
+        b = (self._constraints_f @ base).astype(np.int64) % 2
         fixed = self._solver.solve(b)
         if fixed is None:
             return self._zero(arrays)
         if fixed.size:
-            base = base ^ ((fixed.astype(np.int64) @ self._fixed_gens) % 2).astype(np.uint8)
+            base = base ^ ((fixed.astype(float) @ self._fixed_gens_f).astype(np.int64) % 2).astype(np.uint8)
         log_scale = self.log_norm
         for group, target in ((self._constant, None), *((g, g) for g in self._groups)):
             if group is None or group.size == 0:
@@ -202,12 +205,12 @@ class _LinearSolver:
         reduced, pivots = gf2.row_reduce(aug, ncols=k)
         self.k = k
         self.pivots = np.array(pivots, dtype=int)
-        self.transform = reduced[:, k:].astype(np.int64)
+        self.transform = reduced[:, k:].astype(float)  # exact: 0/1 entries, sums << 2^53
 
     def solve(self, b: np.ndarray) -> np.ndarray | None:
         if self.transform.size == 0:
             return np.zeros(self.k, dtype=np.uint8) if not np.asarray(b).any() else None
-        tb = (self.transform @ b) % 2
+        tb = (self.transform @ np.asarray(b, dtype=float)).astype(np.int64) % 2
         rank = self.pivots.size
         if tb[rank:].any():
             return None

@@ -37,6 +37,7 @@ class ExactPlan:
 
     tree: Any  # cotengra.ContractionTree, or None when there is nothing to contract
     qubit_nodes: list[int]
+    threads: int
     flops: float
     largest_intermediate: float
     width: float
@@ -51,12 +52,16 @@ class ExactTree(Strategy):
         Parameter("method", "str", "auto",
                   "tree search: auto (kahypar partitions and greedy trials, best kept), kahypar, or greedy (one "
                   "instant greedy tree)", choices=("auto", "kahypar", "greedy")),
-        Parameter("search_time", "float", 2.0, "wall-clock budget of the tree search, seconds", minimum=0.0),
+        Parameter("search_time", "float", 2.0,
+                  "wall-clock budget of the tree search, seconds (soft: checked between trials)", minimum=0.0),
         Parameter("max_repeats", "int", 64, "most trial trees the search draws", minimum=1, maximum=100000),
         Parameter("reconfigure", "bool", False, "refine the best tree by subtree reconfiguration (slow at scale)"),
         Parameter("max_intermediate", "float", 2.0**27,
                   "largest intermediate tensor allowed, in elements (2^27 float64 = 1 GiB)", minimum=1.0),
         Parameter("seed", "int", 0, "seed of the tree search", minimum=0),
+        Parameter("threads", "int", 1,
+                  "BLAS threads while contracting (0: the library default; >1 threads suffer on a busy machine)",
+                  minimum=0, maximum=256),
     )
 
     def plan(self, structure: NetworkStructure, params: Mapping[str, Any]) -> ExactPlan:
@@ -64,7 +69,7 @@ class ExactTree(Strategy):
 
         inputs, qubit_nodes = structure.hyperedges()
         if not inputs:
-            return ExactPlan(None, [], 0.0, 1.0, 0.0, "none")
+            return ExactPlan(None, [], params["threads"], 0.0, 1.0, 0.0, "none")
         method = _choose_method(params["method"])
         size_dict = {g: 2 for term in inputs for g in term}
         if method == "greedy" or len(inputs) <= 2:
@@ -79,7 +84,8 @@ class ExactTree(Strategy):
                 max_time=params["search_time"] if params["search_time"] > 0 else None,
                 reconf_opts={} if params["reconfigure"] else None,
                 parallel=False,
-                minimize="flops",
+                # flops alone picks trees that move much memory and run slower (benchmarks/README.md)
+                minimize="combo",
                 on_trial_error="ignore",
                 progbar=False,
                 seed=params["seed"],
@@ -88,7 +94,7 @@ class ExactTree(Strategy):
         if optimizer != "greedy":
             # a short search budget may end before its first good trial: keep greedy as a floor
             searched = ctg.array_contract_tree(inputs, (), size_dict, optimize=optimizer)
-            if (searched.contraction_cost(), searched.max_size()) < (tree.contraction_cost(), tree.max_size()):
+            if searched.combo_cost() < tree.combo_cost():
                 tree = searched
         largest = float(tree.max_size())
         if largest > params["max_intermediate"]:
@@ -100,6 +106,7 @@ class ExactTree(Strategy):
         return ExactPlan(
             tree=tree,
             qubit_nodes=qubit_nodes,
+            threads=params["threads"],
             flops=float(tree.contraction_cost()),
             largest_intermediate=largest,
             width=float(tree.contraction_width()),
@@ -115,10 +122,19 @@ class ExactTree(Strategy):
         if plan.tree is None:
             return Estimate(0.0, stats)
         arrays = [network.arrays[i] for i in plan.qubit_nodes]
-        mantissa, exponent = plan.tree.contract(arrays, strip_exponent=True, check_zero=True)
+        with _blas_threads(plan.threads):
+            mantissa, exponent = plan.tree.contract(arrays, strip_exponent=True, check_zero=True)
         value = float(np.abs(mantissa))
         log_value = -math.inf if value == 0.0 else math.log(value) + float(exponent) * math.log(10.0)
         return Estimate(log_value, stats)
+
+
+def _blas_threads(threads: int):
+    from contextlib import nullcontext
+
+    from threadpoolctl import threadpool_limits
+
+    return nullcontext() if threads == 0 else threadpool_limits(limits=threads, user_api="blas")
 
 
 def _choose_method(requested: str) -> str:
