@@ -115,23 +115,30 @@ def main(argv=None) -> int:
     return 0
 
 
+#: Errors below this are rounding: settings under it count as equally accurate.
+ACCURACY_FLOOR = 1e-10
+
+
 def _target(results, chis) -> None:
-    """Sweep time to reach the better quimb baseline's accuracy, against that baseline's time."""
-    base = [(err, t, name, chi) for (name, chi), (t, err) in results.items() if name in BASELINES]
-    if not base or not any(n == "sweep" for n, _ in results):
+    """For each baseline setting: the cheapest sweep setting at least as accurate, and the speed ratio."""
+    sweep = sorted((t, chi, err) for (n, chi), (t, err) in results.items() if n == "sweep")
+    if not sweep:
         return
-    best_err = min(b[0] for b in base)
-    # the baseline's cheapest setting reaching its best accuracy (within a factor 2)
-    err_b, t_b, name_b, chi_b = min((b for b in base if b[0] <= 2 * best_err + 1e-14), key=lambda b: b[1])
-    sweep = sorted((chi, t, err) for (n, chi), (t, err) in results.items() if n == "sweep")
-    hit = next(((chi, t, err) for chi, t, err in sweep if err <= err_b), None)
-    if hit is None:
-        print(f"   target: the sweep never reaches {name_b} chi={chi_b}'s error {err_b:.1e} at chi <= {max(chis)}: MISSED")
-        return
-    ratio = t_b / hit[1]
-    verdict = "met" if ratio >= 5 else "MISSED"
-    print(f"   target: sweep chi={hit[0]} reaches {name_b} chi={chi_b}'s error {err_b:.1e} "
-          f"{ratio:.1f}x faster ({1e3 * hit[1]:.1f} vs {1e3 * t_b:.1f} ms): {verdict} (target 5x)")
+    ratios = []
+    for (name, chi_b), (t_b, err_b) in sorted(results.items()):
+        if name not in BASELINES:
+            continue
+        goal = max(err_b, ACCURACY_FLOOR)
+        hit = next(((t, chi, err) for t, chi, err in sweep if err <= goal), None)
+        if hit is None:
+            print(f"   vs {name} chi={chi_b} (error {err_b:.1e}): no sweep setting up to chi {max(chis)} is as accurate")
+            continue
+        ratios.append(t_b / hit[0])
+        print(f"   vs {name} chi={chi_b} (error {err_b:.1e}, {1e3 * t_b:.1f} ms): sweep chi={hit[1]} "
+              f"(error {hit[2]:.1e}, {1e3 * hit[0]:.1f} ms) is {t_b / hit[0]:.1f}x faster")
+    if ratios:
+        verdict = "met" if min(ratios) >= 5 else "MISSED"
+        print(f"   target (sweep >= 5x faster at equal accuracy): smallest ratio {min(ratios):.1f}x: {verdict}")
 
 
 def _scaling(scaling) -> None:

@@ -192,11 +192,15 @@ def _run_list(args: argparse.Namespace) -> int:
                 kind = "exact" if strat.exact else "approximate"
                 print(f"  {name:<22} {strat.summary}  [{kind}; plugin {catalog.strategy_origin[name]}]")
                 for p in strat.parameters:
-                    print(f"      {p.name} = {p.default!r:<12} {p.describe_range()}: {p.summary}")
+                    print(f"      {p.name:<17} = {p.default!r:<14} {p.describe_range()}: {p.summary}")
         else:
-            table = {"lattices": catalog.lattices, "codes": catalog.code_families, "noise": catalog.noise_models}
-            print(f"{ {'lattices': 'lattices', 'codes': 'code families', 'noise': 'noise models'}[section] }:")
-            for name, entry in sorted(table[section].items()):
+            title, table = {
+                "lattices": ("lattices", catalog.lattices),
+                "codes": ("code families", catalog.code_families),
+                "noise": ("noise models", catalog.noise_models),
+            }[section]
+            print(f"{title}:")
+            for name, entry in sorted(table.items()):
                 tag = " (random; seeded)" if entry.random else ""
                 print(f"  {name:<22} {entry.summary}{tag}")
         print()
