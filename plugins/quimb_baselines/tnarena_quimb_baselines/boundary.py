@@ -22,6 +22,7 @@ from typing import Any
 
 import numpy as np
 
+from tnarena.blas import one_blas_thread
 from tnarena.errors import TnarenaError
 from tnarena.network import DecodingNetwork, NetworkStructure
 from tnarena.network.quimb_adapter import to_quimb
@@ -86,6 +87,10 @@ class QuimbBoundary(Strategy):
         )
 
     def contract(self, plan: BoundaryPlan, network: DecodingNetwork) -> Estimate:
+        with one_blas_thread():  # the same BLAS policy as every built-in strategy
+            return self._contract(plan, network)
+
+    def _contract(self, plan: BoundaryPlan, network: DecodingNetwork) -> Estimate:
         """ln |value| by quimb's boundary contraction, then its exact contraction of what is left.
 
         quimb does not report the work of the boundary steps: the stats hold

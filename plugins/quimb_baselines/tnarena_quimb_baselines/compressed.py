@@ -21,6 +21,7 @@ from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import Any
 
+from tnarena.blas import one_blas_thread
 from tnarena.errors import TnarenaError
 from tnarena.network import DecodingNetwork, NetworkStructure
 from tnarena.network.quimb_adapter import to_quimb
@@ -99,6 +100,10 @@ class QuimbCompressed(Strategy):
         )
 
     def contract(self, plan: CompressedPlan, network: DecodingNetwork) -> Estimate:
+        with one_blas_thread():  # the same BLAS policy as every built-in strategy
+            return self._contract(plan, network)
+
+    def _contract(self, plan: CompressedPlan, network: DecodingNetwork) -> Estimate:
         """ln |value| by ``contract_compressed`` along the plan's tree.
 
         Stats: ``flops`` and ``largest_intermediate`` measured on the pairwise
