@@ -207,17 +207,17 @@ def _load_one(catalog: Catalog, record: PluginRecord, plugin: Any) -> None:
     pm.check_pending()
     before = _snapshot(catalog)
     staged = Catalog()
-    staged.strategies, staged.strategy_origin = dict(catalog.strategies), dict(catalog.strategy_origin)
-    staged.lattices, staged.code_families = dict(catalog.lattices), dict(catalog.code_families)
-    staged.noise_models = dict(catalog.noise_models)
+    for table in _TABLES:
+        setattr(staged, table, dict(getattr(catalog, table)))
     for hook_name, make_register in _HOOKS.items():
         for impl in getattr(pm.hook, hook_name).get_hookimpls():
             impl.function(register=make_register(staged, record.name))
-    # commit only when the whole plugin registered cleanly
-    catalog.strategies, catalog.strategy_origin = staged.strategies, staged.strategy_origin
-    catalog.lattices, catalog.code_families = staged.lattices, staged.code_families
-    catalog.noise_models = staged.noise_models
+    for table in _TABLES:  # commit only when the whole plugin registered cleanly
+        setattr(catalog, table, getattr(staged, table))
     record.provides = sorted(_snapshot(catalog) - before)
+
+
+_TABLES = ("strategies", "strategy_origin", "lattices", "code_families", "noise_models")
 
 
 def _snapshot(catalog: Catalog) -> set[str]:
