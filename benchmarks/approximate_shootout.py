@@ -16,7 +16,6 @@ sweep's time against the number of qubits at fixed chi (fitted exponent).
 from __future__ import annotations
 
 import argparse
-import math
 import sys
 import time
 

@@ -252,7 +252,7 @@ def scaling(noise: str, args, base: dict) -> list[Row]:
     ok = [r.d for r in rows if r.status == "ok"]
     best = max(fast, key=lambda r: r.d) if fast else None
     print(
-        f"largest d decoded exactly in < 1 s per syndrome (median total, after planning): "
+        "largest d decoded exactly in < 1 s per syndrome (median total, after planning): "
         + (f"{best.d} (n = {best.n})" if best else "none")
         + f"; largest d run to completion: {max(ok) if ok else 'none'}"
     )

@@ -9,7 +9,13 @@ probability; common practice):
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
+from scipy import integrate
+
+from tnarena.network import copy_tensor
+from tnarena.network.structure import GENERATOR, QUBIT, DecodingNetwork, NetworkStructure
 
 # noise-table column of a single-qubit Pauli with bits (x, z): I=0, X=1, Y=2, Z=3
 _COLUMN = np.array([[0, 3], [1, 2]])
@@ -46,3 +52,43 @@ def group_sum(generators: np.ndarray, table: np.ndarray, base: np.ndarray) -> fl
 def random_table(n: int, rng: np.random.Generator) -> np.ndarray:
     """A generic per-qubit channel (Dirichlet rows skewed towards I)."""
     return rng.dirichlet([20.0, 1.0, 1.0, 1.0], size=n)
+
+
+def ising_network(length: int, beta: float) -> DecodingNetwork:
+    """Open L x L Ising model in the framework's own network type: spins are COPY nodes,
+    each bond a degree-2 node holding exp(beta sigma sigma') (general positioned network)."""
+    spin = {(i, j): i * length + j for i in range(length) for j in range(length)}
+    kinds, positions, bonds, node_bonds = [], [], [], []
+    for (i, j) in spin:
+        kinds.append(GENERATOR)
+        positions.append((float(i), float(j)))
+        node_bonds.append([])
+    weight = np.array([[math.exp(beta), math.exp(-beta)], [math.exp(-beta), math.exp(beta)]])
+    arrays_bond = []
+    for (i, j), a in spin.items():
+        for di, dj in ((1, 0), (0, 1)):
+            if (i + di, j + dj) in spin:
+                b_node = len(kinds)
+                kinds.append(QUBIT)
+                positions.append((i + di / 2, j + dj / 2))
+                mine = []
+                for s in (a, spin[(i + di, j + dj)]):
+                    bonds.append((s, b_node))
+                    node_bonds[s].append(len(bonds) - 1)
+                    mine.append(len(bonds) - 1)
+                node_bonds.append(mine)
+                arrays_bond.append(weight)
+    structure = NetworkStructure(
+        kinds=tuple(kinds), labels=tuple(range(len(kinds))), positions=np.array(positions),
+        bonds=np.array(bonds), node_bonds=tuple(tuple(b) for b in node_bonds),
+    )
+    arrays = [copy_tensor(len(node_bonds[s])) for s in range(len(spin))] + arrays_bond
+    return DecodingNetwork(structure, tuple(arrays), 0.0)
+
+
+def onsager_free_energy(beta: float) -> float:
+    """REFERENCES 1 (Onsager 1944): -beta f = ln 2 + 1/(8 pi^2) int int ln[cosh^2 2b - sinh 2b (cos t1 + cos t2)]."""
+    c, s = math.cosh(2 * beta) ** 2, math.sinh(2 * beta)
+    value, _ = integrate.dblquad(lambda t1, t2: math.log(c - s * (math.cos(t1) + math.cos(t2))),
+                                 0, 2 * math.pi, 0, 2 * math.pi, epsabs=1e-12, epsrel=1e-12)
+    return math.log(2) + value / (8 * math.pi**2)

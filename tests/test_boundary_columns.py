@@ -9,11 +9,11 @@ import math
 
 import numpy as np
 import pytest
-from scipy import integrate
 
+from reference import ising_network, onsager_free_energy
 from tnarena.errors import TnarenaError
 from tnarena.lattices import LATTICE_FAMILIES
-from tnarena.network import GENERATOR, QUBIT, DecodingNetwork, NetworkBuilder, NetworkStructure, copy_tensor
+from tnarena.network import NetworkBuilder
 from tnarena.noise import make_noise, sample_errors
 
 NOISE = [
@@ -113,44 +113,6 @@ def test_error_does_not_grow_with_chi(catalog, lattice):
     means = [float(np.mean(errors[chi])) for chi in (2, 4, 8, 16)]
     assert all(b <= a * (1 + 1e-9) + 1e-12 for a, b in zip(means, means[1:])), means
     assert means[-1] < 1e-3, means
-
-
-def ising_network(length: int, beta: float) -> DecodingNetwork:
-    """Open length x length Ising model, zero field: a COPY node per spin at (i, j) and a degree-2 node
-    holding exp(beta s s') at the middle of every nearest-neighbour bond."""
-    spins = {(i, j): i * length + j for i in range(length) for j in range(length)}
-    kinds, positions, bonds, node_bonds = [], [], [], []
-    for i, j in spins:
-        kinds.append(GENERATOR)
-        positions.append((float(i), float(j)))
-        node_bonds.append([])
-    for (i, j), a in spins.items():
-        for di, dj in ((1, 0), (0, 1)):
-            b = spins.get((i + di, j + dj))
-            if b is None:
-                continue
-            node = len(kinds)
-            kinds.append(QUBIT)
-            positions.append((i + di / 2, j + dj / 2))
-            node_bonds.append([])
-            for spin in (a, b):
-                bonds.append((spin, node))
-                node_bonds[spin].append(len(bonds) - 1)
-                node_bonds[node].append(len(bonds) - 1)
-    weight = np.exp(beta * np.array([[1.0, -1.0], [-1.0, 1.0]]))
-    structure = NetworkStructure(
-        kinds=tuple(kinds), labels=tuple(range(len(kinds))), positions=np.array(positions),
-        bonds=np.array(bonds), node_bonds=tuple(tuple(b) for b in node_bonds))
-    arrays = [copy_tensor(len(node_bonds[v])) if k == GENERATOR else weight for v, k in enumerate(kinds)]
-    return DecodingNetwork(structure, tuple(arrays), 0.0)
-
-
-def onsager_free_energy(beta: float) -> float:
-    """REFERENCES 1 (Onsager 1944): -beta f = ln 2 + 1/(8 pi^2) int int ln[cosh^2 2b - sinh 2b (cos t1 + cos t2)]."""
-    c, s = math.cosh(2 * beta) ** 2, math.sinh(2 * beta)
-    value, _ = integrate.dblquad(lambda t1, t2: math.log(c - s * (math.cos(t1) + math.cos(t2))),
-                                 0, 2 * math.pi, 0, 2 * math.pi, epsabs=1e-12, epsrel=1e-12)
-    return math.log(2) + value / (8 * math.pi**2)
 
 
 @pytest.mark.parametrize("beta", [0.3, 0.6])

@@ -1,16 +1,14 @@
 """The sweep-line strategy against the exact strategy, Onsager's free energy, and refusals."""
 
-import math
 
 import numpy as np
 import pytest
-from scipy import integrate
 
+from reference import ising_network, onsager_free_energy
 from tnarena.decode import Decoder
 from tnarena.errors import TnarenaError
 from tnarena.lattices import LATTICE_FAMILIES
-from tnarena.network import NetworkBuilder, copy_tensor
-from tnarena.network.structure import GENERATOR, QUBIT, DecodingNetwork, NetworkStructure
+from tnarena.network import NetworkBuilder
 from tnarena.noise import make_noise, sample_errors
 
 NOISE = [
@@ -98,46 +96,6 @@ def test_error_does_not_grow_with_chi(catalog, lattice):
     means = [np.mean(errors[chi]) for chi in (2, 4, 8, 16)]
     assert all(b <= a * (1 + 1e-9) + 1e-12 for a, b in zip(means, means[1:])), means
     assert means[-1] < 1e-3
-
-
-def ising_network(length: int, beta: float) -> DecodingNetwork:
-    """Open L x L Ising model in the framework's own network type: spins are COPY nodes,
-    each bond a degree-2 node holding exp(beta sigma sigma') (general positioned network)."""
-    spin = {(i, j): i * length + j for i in range(length) for j in range(length)}
-    kinds, positions, bonds, node_bonds = [], [], [], []
-    for (i, j) in spin:
-        kinds.append(GENERATOR)
-        positions.append((float(i), float(j)))
-        node_bonds.append([])
-    weight = np.array([[math.exp(beta), math.exp(-beta)], [math.exp(-beta), math.exp(beta)]])
-    arrays_bond = []
-    for (i, j), a in spin.items():
-        for di, dj in ((1, 0), (0, 1)):
-            if (i + di, j + dj) in spin:
-                b_node = len(kinds)
-                kinds.append(QUBIT)
-                positions.append((i + di / 2, j + dj / 2))
-                mine = []
-                for s in (a, spin[(i + di, j + dj)]):
-                    bonds.append((s, b_node))
-                    node_bonds[s].append(len(bonds) - 1)
-                    mine.append(len(bonds) - 1)
-                node_bonds.append(mine)
-                arrays_bond.append(weight)
-    structure = NetworkStructure(
-        kinds=tuple(kinds), labels=tuple(range(len(kinds))), positions=np.array(positions),
-        bonds=np.array(bonds), node_bonds=tuple(tuple(b) for b in node_bonds),
-    )
-    arrays = [copy_tensor(len(node_bonds[s])) for s in range(len(spin))] + arrays_bond
-    return DecodingNetwork(structure, tuple(arrays), 0.0)
-
-
-def onsager_free_energy(beta: float) -> float:
-    """REFERENCES 1 (Onsager 1944): -beta f = ln 2 + 1/(8 pi^2) int int ln[cosh^2 2b - sinh 2b (cos t1 + cos t2)]."""
-    c, s = math.cosh(2 * beta) ** 2, math.sinh(2 * beta)
-    value, _ = integrate.dblquad(lambda t1, t2: math.log(c - s * (math.cos(t1) + math.cos(t2))),
-                                 0, 2 * math.pi, 0, 2 * math.pi, epsabs=1e-12, epsrel=1e-12)
-    return math.log(2) + value / (8 * math.pi**2)
 
 
 @pytest.mark.parametrize("beta", [0.3, 0.6])

@@ -16,8 +16,6 @@ from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import Any
 
-import numpy as np
-
 import tnarena
 from tnarena.blas import one_blas_thread
 from tnarena.errors import TnarenaError
