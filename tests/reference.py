@@ -54,36 +54,39 @@ def random_table(n: int, rng: np.random.Generator) -> np.ndarray:
     return rng.dirichlet([20.0, 1.0, 1.0, 1.0], size=n)
 
 
-def ising_network(length: int, beta: float) -> DecodingNetwork:
-    """Open L x L Ising model in the framework's own network type: spins are COPY nodes,
-    each bond a degree-2 node holding exp(beta sigma sigma') (general positioned network)."""
-    spin = {(i, j): i * length + j for i in range(length) for j in range(length)}
-    kinds, positions, bonds, node_bonds = [], [], [], []
-    for (i, j) in spin:
-        kinds.append(GENERATOR)
-        positions.append((float(i), float(j)))
-        node_bonds.append([])
-    weight = np.array([[math.exp(beta), math.exp(-beta)], [math.exp(-beta), math.exp(beta)]])
-    arrays_bond = []
+def ising_grid(sites, coupling) -> DecodingNetwork:
+    """Ising model on integer grid points in the framework's own network type: spins are COPY nodes
+    at the points, each nearest-neighbour bond a degree-2 node at its midpoint holding
+    exp(J sigma sigma') with J = coupling() drawn per bond in a fixed order (general positioned network)."""
+    spin = {site: n for n, site in enumerate(sites)}
+    kinds = [GENERATOR] * len(spin)
+    positions = [tuple(map(float, site)) for site in spin]
+    bonds, node_bonds, arrays_bond = [], [[] for _ in spin], []
     for (i, j), a in spin.items():
         for di, dj in ((1, 0), (0, 1)):
-            if (i + di, j + dj) in spin:
-                b_node = len(kinds)
-                kinds.append(QUBIT)
-                positions.append((i + di / 2, j + dj / 2))
-                mine = []
-                for s in (a, spin[(i + di, j + dj)]):
-                    bonds.append((s, b_node))
-                    node_bonds[s].append(len(bonds) - 1)
-                    mine.append(len(bonds) - 1)
-                node_bonds.append(mine)
-                arrays_bond.append(weight)
+            if (i + di, j + dj) not in spin:
+                continue
+            node = len(kinds)
+            kinds.append(QUBIT)
+            positions.append((i + di / 2, j + dj / 2))
+            mine = []
+            for s_ in (a, spin[(i + di, j + dj)]):
+                bonds.append((s_, node))
+                node_bonds[s_].append(len(bonds) - 1)
+                mine.append(len(bonds) - 1)
+            node_bonds.append(mine)
+            arrays_bond.append(np.exp(coupling() * np.array([[1.0, -1.0], [-1.0, 1.0]])))
     structure = NetworkStructure(
-        kinds=tuple(kinds), labels=tuple(range(len(kinds))), positions=np.array(positions),
+        kinds=tuple(kinds), labels=tuple(range(len(kinds))), positions=np.array(positions, dtype=float),
         bonds=np.array(bonds), node_bonds=tuple(tuple(b) for b in node_bonds),
     )
-    arrays = [copy_tensor(len(node_bonds[s])) for s in range(len(spin))] + arrays_bond
+    arrays = [copy_tensor(len(node_bonds[v])) for v in range(len(spin))] + arrays_bond
     return DecodingNetwork(structure, tuple(arrays), 0.0)
+
+
+def ising_network(length: int, beta: float) -> DecodingNetwork:
+    """Open L x L ferromagnetic Ising model at inverse temperature beta (J = 1)."""
+    return ising_grid([(i, j) for i in range(length) for j in range(length)], lambda: beta)
 
 
 def onsager_free_energy(beta: float) -> float:
@@ -92,3 +95,24 @@ def onsager_free_energy(beta: float) -> float:
     value, _ = integrate.dblquad(lambda t1, t2: math.log(c - s * (math.cos(t1) + math.cos(t2))),
                                  0, 2 * math.pi, 0, 2 * math.pi, epsabs=1e-12, epsrel=1e-12)
     return math.log(2) + value / (8 * math.pi**2)
+
+
+def chi_errors(catalog, strategy: str, lattice: str, instances: int, chis=(2, 4, 8, 16)) -> list[float]:
+    """Mean |error in ln P| of ``strategy`` against exact, per chi, over seeded instances of the size-5
+    surface code on ``lattice`` under depolarizing noise 0.12 (one plan per chi for every instance)."""
+    from tnarena.network import NetworkBuilder
+    from tnarena.noise import make_noise, sample_errors
+
+    code = catalog.build_code("surface", lattice, 5, seed=1)
+    table = make_noise("depolarizing", code.n, 0.12)
+    builder = NetworkBuilder(code, table)
+    ex, approx = catalog.strategy("exact"), catalog.strategy(strategy)
+    pe = ex.plan(builder.structure, ex.resolve({"search_time": 0.2}))
+    plans = {chi: approx.plan(builder.structure, approx.resolve({"chi": chi})) for chi in chis}
+    errors = {chi: [] for chi in chis}
+    for seed in range(instances):
+        network = builder.network(sample_errors(table, np.random.default_rng(seed)))
+        want = ex.contract(pe, network).log_value
+        for chi, plan in plans.items():
+            errors[chi].append(abs(approx.contract(plan, network).log_value - want))
+    return [float(np.mean(errors[chi])) for chi in chis]

@@ -10,7 +10,7 @@ import math
 import numpy as np
 import pytest
 
-from reference import ising_network, onsager_free_energy
+from reference import chi_errors, ising_network, onsager_free_energy
 from tnarena.errors import TnarenaError
 from tnarena.lattices import LATTICE_FAMILIES
 from tnarena.network import NetworkBuilder
@@ -98,19 +98,7 @@ def test_disconnected_pieces_add_their_logs(catalog):
 def test_error_does_not_grow_with_chi(catalog, lattice):
     """Mean |error in ln P| over 30 seeded instances (size 5, depolarizing 0.12) does not grow as chi goes
     2, 4, 8, 16, and is below 1e-3 at chi = 16; one plan per chi serves every instance."""
-    code = catalog.build_code("surface", lattice, 5, seed=1)
-    table = make_noise("depolarizing", code.n, 0.12)
-    builder = NetworkBuilder(code, table)
-    ex, co = catalog.strategy("exact"), catalog.strategy("columns")
-    pe = ex.plan(builder.structure, ex.resolve({"search_time": 0.2}))
-    plans = {chi: co.plan(builder.structure, co.resolve({"chi": chi})) for chi in (2, 4, 8, 16)}
-    errors = {chi: [] for chi in plans}
-    for seed in range(30):
-        network = builder.network(sample_errors(table, np.random.default_rng(seed)))
-        want = ex.contract(pe, network).log_value
-        for chi, plan in plans.items():
-            errors[chi].append(abs(co.contract(plan, network).log_value - want))
-    means = [float(np.mean(errors[chi])) for chi in (2, 4, 8, 16)]
+    means = chi_errors(catalog, "columns", lattice, 30)
     assert all(b <= a * (1 + 1e-9) + 1e-12 for a, b in zip(means, means[1:])), means
     assert means[-1] < 1e-3, means
 

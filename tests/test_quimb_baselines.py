@@ -9,9 +9,9 @@ import math
 import numpy as np
 import pytest
 
+from reference import ising_grid
 from tnarena.errors import TnarenaError
-from tnarena.network import DecodingNetwork, NetworkBuilder, copy_tensor
-from tnarena.network.structure import GENERATOR, QUBIT, NetworkStructure
+from tnarena.network import DecodingNetwork, NetworkBuilder
 from tnarena.noise import make_noise, sample_errors
 
 CLASSES = [(0, 0), (1, 0), (0, 1), (1, 1)]
@@ -151,34 +151,8 @@ def holed_ising_network(beta: float, seed: int) -> DecodingNetwork:
     own network type (spins are COPY nodes at integer points, each coupling a degree-2 node at the bond
     midpoint): the centre unit cell is empty and its four neighbours share no bond with it."""
     rng = np.random.default_rng(seed)
-    spin = {(i, j): None for i in range(3) for j in range(3) if (i, j) != (1, 1)}
-    kinds, positions, bonds, node_bonds, arrays = [], [], [], [], []
-    for n, site in enumerate(spin):
-        spin[site] = n
-        kinds.append(GENERATOR)
-        positions.append(site)
-        node_bonds.append([])
-    for (i, j), a in list(spin.items()):
-        for di, dj in ((1, 0), (0, 1)):
-            if (i + di, j + dj) not in spin:
-                continue
-            node = len(kinds)
-            kinds.append(QUBIT)
-            positions.append((i + di / 2, j + dj / 2))
-            mine = []
-            for s in (a, spin[(i + di, j + dj)]):
-                bonds.append((s, node))
-                node_bonds[s].append(len(bonds) - 1)
-                mine.append(len(bonds) - 1)
-            node_bonds.append(mine)
-            coupling = beta * rng.choice([-1.0, 1.0])
-            arrays.append(np.exp(coupling * np.array([[1.0, -1.0], [-1.0, 1.0]])))
-    structure = NetworkStructure(
-        kinds=tuple(kinds), labels=tuple(range(len(kinds))), positions=np.array(positions, dtype=float),
-        bonds=np.array(bonds), node_bonds=tuple(tuple(b) for b in node_bonds),
-    )
-    spins = [copy_tensor(len(node_bonds[s])) for s in range(len(spin))]
-    return DecodingNetwork(structure, tuple(spins + arrays), 0.0)
+    sites = [(i, j) for i in range(3) for j in range(3) if (i, j) != (1, 1)]
+    return ising_grid(sites, lambda: beta * rng.choice([-1.0, 1.0]))
 
 
 @pytest.mark.parametrize("seed", [0, 1])

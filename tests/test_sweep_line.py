@@ -4,7 +4,7 @@
 import numpy as np
 import pytest
 
-from reference import ising_network, onsager_free_energy
+from reference import chi_errors, ising_network, onsager_free_energy
 from tnarena.decode import Decoder
 from tnarena.errors import TnarenaError
 from tnarena.lattices import LATTICE_FAMILIES
@@ -81,19 +81,7 @@ def test_decisions_agree_with_exact_at_chi_8(catalog):
 @pytest.mark.parametrize("lattice", ["square", "hexagonal", "delaunay"])
 def test_error_does_not_grow_with_chi(catalog, lattice):
     """Issue 3: mean |error in ln P| over 50 seeded instances does not grow as chi goes 2, 4, 8, 16."""
-    code = catalog.build_code("surface", lattice, 5, seed=1)
-    table = make_noise("depolarizing", code.n, 0.12)
-    builder = NetworkBuilder(code, table)
-    ex, sw = catalog.strategy("exact"), catalog.strategy("sweep")
-    pe = ex.plan(builder.structure, ex.resolve({"search_time": 0.2}))
-    plans = {chi: sw.plan(builder.structure, sw.resolve({"chi": chi})) for chi in (2, 4, 8, 16)}
-    errors = {chi: [] for chi in plans}
-    for seed in range(50):
-        network = builder.network(sample_errors(table, np.random.default_rng(seed)))
-        want = ex.contract(pe, network).log_value
-        for chi, plan in plans.items():
-            errors[chi].append(abs(sw.contract(plan, network).log_value - want))
-    means = [np.mean(errors[chi]) for chi in (2, 4, 8, 16)]
+    means = chi_errors(catalog, "sweep", lattice, 50)
     assert all(b <= a * (1 + 1e-9) + 1e-12 for a, b in zip(means, means[1:])), means
     assert means[-1] < 1e-3
 
