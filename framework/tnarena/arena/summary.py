@@ -1,0 +1,201 @@
+"""Metrics from the store: every task against its point's reference, and summaries.
+
+The reference at a point is the study's reference setting when it succeeded
+on every instance there; otherwise its fallback (an approximate reference,
+flagged ``approximate_reference`` in every output). Errors are
+``|ln P_setting - ln P_reference|`` per logical class whose reference
+probability is non-zero (infinite when the setting calls such a class
+impossible).
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+
+from tnarena.arena.store import Store
+
+#: Columns of :func:`task_metrics` rows, in export order.
+TASK_COLUMNS = ("point", "family", "lattice", "size", "n", "model", "rate", "options", "setting", "strategy",
+                "params", "instance", "status", "reason", "reference", "approximate_reference", "classes",
+                "log_probs", "abs_errors", "mean_abs_error", "decision", "reference_decision", "agrees",
+                "true_class", "logical_failure", "contract_seconds", "decode_seconds", "plan_seconds",
+                "flops", "intermediate_bytes", "traced_peak_bytes", "discarded_weight")
+
+
+def task_metrics(store: Store) -> list[dict[str, Any]]:
+    """One dict per stored task (columns :data:`TASK_COLUMNS`), errors against the reference."""
+    rows = store.rows(
+        "SELECT r.*, p.label AS point, p.family, p.lattice, p.size, p.n, p.model, p.rate, p.options, "
+        "s.label AS setting, s.strategy, s.params, s.reference AS is_reference, s.fallback AS is_fallback "
+        "FROM results r JOIN points p ON p.id = r.point_id JOIN settings s ON s.id = r.setting_id "
+        "ORDER BY p.id, s.id, r.instance")
+    refs = _references(rows)
+    by_key = {(r["point_id"], r["setting_id"], r["instance"]): r for r in rows}
+    labels = {r["setting_id"]: r["setting"] for r in rows}
+    out = []
+    for r in rows:
+        ref_sid, approximate = refs.get(r["point_id"], (None, False))
+        ref = by_key.get((r["point_id"], ref_sid, r["instance"])) if ref_sid is not None else None
+        ref_ok = ref is not None and ref["status"] == "ok"
+        errors = _abs_errors(r, ref) if (ref_ok and r["status"] == "ok") else None
+        label = labels.get(ref_sid)
+        out.append({
+            "point": r["point"], "family": r["family"], "lattice": r["lattice"], "size": r["size"], "n": r["n"],
+            "model": r["model"], "rate": r["rate"], "options": r["options"], "setting": r["setting"],
+            "strategy": r["strategy"], "params": r["params"], "instance": r["instance"], "status": r["status"],
+            "reason": r["reason"], "reference": label, "approximate_reference": bool(approximate),
+            "classes": _json(r["classes"]), "log_probs": _json(r["log_probs"]), "abs_errors": errors,
+            "mean_abs_error": None if errors is None else float(np.mean(errors)) if errors else 0.0,
+            "decision": r["decision"], "reference_decision": ref["decision"] if ref_ok else None,
+            "agrees": (r["decision"] == ref["decision"]) if (ref_ok and r["status"] == "ok") else None,
+            "true_class": r["true_class"], "logical_failure": r["logical_failure"],
+            **{k: r[k] for k in ("contract_seconds", "decode_seconds", "plan_seconds", "flops",
+                                 "intermediate_bytes", "traced_peak_bytes", "discarded_weight")},
+        })
+    return out
+
+
+def _references(rows) -> dict[int, tuple[int, bool]]:
+    """point id -> (reference setting id, whether it is the approximate fallback).
+
+    The reference where it succeeded on every instance of the point; else the
+    fallback where one was run; else the reference on the instances it did finish.
+    """
+    states: dict[tuple[int, int], set[str]] = {}
+    reference, fallback = set(), set()
+    for r in rows:
+        states.setdefault((r["point_id"], r["setting_id"]), set()).add(r["status"])
+        (reference if r["is_reference"] else fallback if r["is_fallback"] else set()).add(r["setting_id"])
+    out: dict[int, tuple[int, bool]] = {}
+    for (pid, sid), seen in states.items():
+        if sid in fallback and pid not in out:
+            out[pid] = (sid, True)
+    for (pid, sid), seen in states.items():
+        if sid in reference and (seen == {"ok"} or pid not in out):
+            out[pid] = (sid, False)
+    return out
+
+
+def _abs_errors(row, ref) -> list[float]:
+    mine, theirs = _json(row["log_probs"]), _json(ref["log_probs"])
+    out = []
+    for a, b in zip(mine, theirs):
+        if b is None:
+            continue
+        out.append(math.inf if a is None else abs(a - b))
+    return out
+
+
+def _json(text: str | None) -> Any:
+    return None if text is None else json.loads(text)
+
+
+@dataclass
+class SummaryRow:
+    """One (point, setting): counts, accuracy against the reference, time and memory."""
+
+    point: str
+    lattice: str | None
+    size: int
+    n: int
+    model: str
+    rate: float
+    setting: str
+    strategy: str
+    tasks: int
+    failed: int
+    mean_abs_error: float | None
+    max_abs_error: float | None
+    agreement: float | None
+    logical_failure_rate: float | None
+    median_contract_ms: float | None
+    plan_ms_per_instance: float
+    peak_intermediate_bytes: float | None
+    peak_traced_bytes: float | None
+    mean_flops: float | None
+    reference: str | None
+    approximate_reference: bool
+    failure_reasons: tuple[str, ...] = ()
+
+
+def summarise(metrics: list[dict[str, Any]]) -> list[SummaryRow]:
+    """Group task metrics by (point, setting), in stored order."""
+    groups: dict[tuple[str, str], list[dict]] = {}
+    for m in metrics:
+        groups.setdefault((m["point"], m["setting"]), []).append(m)
+    out = []
+    for (point, setting), ms in groups.items():
+        ok = [m for m in ms if m["status"] == "ok"]
+        errors = [e for m in ok if m["abs_errors"] for e in m["abs_errors"]]
+        agrees = [m["agrees"] for m in ok if m["agrees"] is not None]
+        first = ms[0]
+        out.append(SummaryRow(
+            point=point, lattice=first["lattice"], size=first["size"], n=first["n"], model=first["model"],
+            rate=first["rate"], setting=setting, strategy=first["strategy"], tasks=len(ms),
+            failed=len(ms) - len(ok),
+            mean_abs_error=float(np.mean(errors)) if errors else (0.0 if agrees else None),
+            max_abs_error=float(np.max(errors)) if errors else (0.0 if agrees else None),
+            agreement=float(np.mean(agrees)) if agrees else None,
+            logical_failure_rate=float(np.mean([m["logical_failure"] for m in ok])) if ok else None,
+            median_contract_ms=1e3 * float(np.median([m["contract_seconds"] for m in ok])) if ok else None,
+            plan_ms_per_instance=1e3 * sum(m["plan_seconds"] or 0.0 for m in ms) / len(ms),
+            peak_intermediate_bytes=_max(m["intermediate_bytes"] for m in ok),
+            peak_traced_bytes=_max(m["traced_peak_bytes"] for m in ok),
+            mean_flops=_mean(m["flops"] for m in ok),
+            reference=first["reference"], approximate_reference=first["approximate_reference"],
+            failure_reasons=tuple(sorted({m["reason"] for m in ms if m["status"] != "ok"})),
+        ))
+    return out
+
+
+def _max(values) -> float | None:
+    vals = [v for v in values if v is not None]
+    return float(max(vals)) if vals else None
+
+
+def _mean(values) -> float | None:
+    vals = [v for v in values if v is not None]
+    return float(np.mean(vals)) if vals else None
+
+
+def format_summary(rows: list[SummaryRow]) -> str:
+    """The terminal table: one block per point, one line per setting."""
+    head = (f"  {'setting':<34}{'ok/tasks':>10}{'mean|dlnP|':>12}{'max|dlnP|':>11}{'agree':>8}"
+            f"{'fail rate':>10}{'ms/decode':>11}{'plan ms':>9}{'peak MiB':>10}{'traced MiB':>11}")
+    lines = []
+    current = None
+    for r in rows:
+        if r.point != current:
+            current = r.point
+            ref = r.reference or "none"
+            flag = "  (APPROXIMATE reference: exact was out of reach)" if r.approximate_reference else ""
+            lines += ["", f"{r.point}  n = {r.n}  reference: {ref}{flag}", head]
+        lines.append(
+            f"  {r.setting:<34}{f'{r.tasks - r.failed}/{r.tasks}':>10}{_num(r.mean_abs_error):>12}"
+            f"{_num(r.max_abs_error):>11}{_pct(r.agreement):>8}{_pct(r.logical_failure_rate):>10}"
+            f"{_fixed(r.median_contract_ms):>11}{_fixed(r.plan_ms_per_instance):>9}"
+            f"{_mib(r.peak_intermediate_bytes):>10}{_mib(r.peak_traced_bytes):>11}")
+        for reason in r.failure_reasons:
+            lines.append(f"      failed: {reason}")
+    return "\n".join(lines).lstrip("\n")
+
+
+def _num(v: float | None) -> str:
+    return "-" if v is None else ("inf" if math.isinf(v) else f"{v:.2e}")
+
+
+def _pct(v: float | None) -> str:
+    return "-" if v is None else f"{100 * v:.1f}%"
+
+
+def _fixed(v: float | None) -> str:
+    return "-" if v is None else f"{v:.2f}" if v < 100 else f"{v:.0f}"
+
+
+def _mib(v: float | None) -> str:
+    return "-" if v is None else f"{v / 2**20:.2f}"

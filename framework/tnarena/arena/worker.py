@@ -1,0 +1,179 @@
+"""What runs inside a worker process: decode one instance with one setting, measure it.
+
+A :class:`Chunk` is a run of instances of one (point, setting); the worker
+builds the code, noise table and decoder (one plan) once per chunk's point
+and setting, keeps them for later chunks, and reports one result row per
+instance (columns of :data:`tnarena.arena.store.RESULT_COLUMNS`).
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import time
+import tracemalloc
+from collections import OrderedDict
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+
+from tnarena.arena.seeds import instance_rng, integer_seed
+from tnarena.arena.study import Point, Setting
+from tnarena.catalog import Catalog
+from tnarena.decode import Decoder, class_label
+from tnarena.errors import TnarenaError
+
+#: Bytes per element of the strategies' arrays (float64), to turn element counts into bytes.
+BYTES_PER_ELEMENT = 8
+#: Decoders (each holding a plan) a worker keeps for reuse.
+DECODER_CACHE = 8
+
+
+@dataclass(frozen=True)
+class Chunk:
+    """Instances of one point run with one setting. Ids are the database's."""
+
+    point: Point
+    setting: Setting
+    point_id: int
+    setting_id: int
+    instances: tuple[int, ...]
+    seed: int
+    trace_memory: int
+
+
+def build_code_and_noise(catalog: Catalog, seed: int, point: Point):
+    """The point's code (random lattices seeded by the code) and validated noise table."""
+    from tnarena.noise import validate_table
+
+    code = catalog.build_code(point.family, point.lattice, point.size, seed=integer_seed(seed, point.code_key))
+    model = catalog.noise_model(point.model)
+    try:
+        table = model.build(code.n, point.rate, seed=integer_seed(seed, point.key), **dict(point.options))
+    except TypeError as exc:
+        raise TnarenaError(f"noise model {point.model!r} refused its options: {exc}.") from None
+    return code, validate_table(table, code.n)
+
+
+def sample_instance_error(seed: int, point: Point, instance: int, table: np.ndarray) -> np.ndarray:
+    """The error of one instance, shape (2n,): the same for every setting and worker."""
+    from tnarena.noise import sample_errors
+
+    return sample_errors(table, instance_rng(seed, point.key, instance))
+
+
+class TaskRunner:
+    """Runs chunks in one process, caching codes and decoders (plans) between them."""
+
+    def __init__(self, catalog: Catalog) -> None:
+        self.catalog = catalog
+        self._codes: dict[tuple[int, str], Any] = {}
+        self._decoders: OrderedDict[tuple[int, str, str], Decoder | TnarenaError] = OrderedDict()
+
+    def run(self, chunk: Chunk, instance: int) -> dict[str, Any]:
+        """Decode one instance; a result row (failures included, never raises)."""
+        try:
+            decoder, plan_seconds = self._decoder(chunk)
+        except TnarenaError as exc:
+            return failed_row(f"plan refused: {exc}")
+        except MemoryError:
+            return failed_row("memory limit exceeded while planning")
+        except Exception as exc:  # noqa: BLE001 - a broken strategy must not stop the study
+            return failed_row(f"{type(exc).__name__} while planning: {exc}")
+        try:
+            return self._decode(chunk, decoder, instance, plan_seconds)
+        except MemoryError:
+            return failed_row("memory limit exceeded")
+        except Exception as exc:  # noqa: BLE001
+            return failed_row(f"{type(exc).__name__}: {exc}")
+
+    def _decoder(self, chunk: Chunk) -> tuple[Decoder, float]:
+        """The cached decoder and the plan time to report (0 when it was planned before)."""
+        key = (chunk.seed, chunk.point.key, chunk.setting.key)
+        if key in self._decoders:
+            self._decoders.move_to_end(key)
+            cached = self._decoders[key]
+            if isinstance(cached, TnarenaError):
+                raise cached
+            return cached, 0.0
+        code, table = self._code(chunk)
+        strategy = self.catalog.strategy(chunk.setting.strategy)
+        try:
+            decoder = Decoder(code, table, strategy, dict(chunk.setting.params))
+        except TnarenaError as exc:
+            self._remember(key, exc)
+            raise
+        self._remember(key, decoder)
+        return decoder, decoder.plan_seconds
+
+    def _remember(self, key, value) -> None:
+        self._decoders[key] = value
+        while len(self._decoders) > DECODER_CACHE:
+            self._decoders.popitem(last=False)
+
+    def _code(self, chunk: Chunk):
+        key = (chunk.seed, chunk.point.key)
+        if key not in self._codes:
+            self._codes = {key: build_code_and_noise(self.catalog, chunk.seed, chunk.point)}
+        return self._codes[key]
+
+    def _decode(self, chunk: Chunk, decoder: Decoder, instance: int, plan_seconds: float) -> dict[str, Any]:
+        _, table = self._code(chunk)
+        error = sample_instance_error(chunk.seed, chunk.point, instance, table)
+        start = time.perf_counter()
+        result = decoder.decode_error(error)
+        decode_seconds = time.perf_counter() - start
+        stats = [c.stats for c in result.classes]
+        row = {
+            "status": "ok",
+            "classes": [c.label for c in result.classes],
+            "log_probs": [None if math.isinf(c.log_prob) else c.log_prob for c in result.classes],
+            "decision": class_label(result.decision),
+            "true_class": class_label(result.true_class),
+            "logical_failure": int(bool(result.failed)),
+            "contract_seconds": sum(c.seconds for c in result.classes),
+            "decode_seconds": decode_seconds,
+            "plan_seconds": plan_seconds,
+            "flops": _total(stats, "flops"),
+            "intermediate_bytes": _largest(stats, "largest_intermediate", BYTES_PER_ELEMENT),
+            "discarded_weight": _largest(stats, "discarded_weight"),
+            "worker": os.getpid(),
+        }
+        if instance < chunk.trace_memory:
+            row["traced_peak_bytes"] = traced_peak(decoder, result)
+        return row
+
+
+def traced_peak(decoder: Decoder, result) -> float:
+    """Peak bytes allocated (tracemalloc) while contracting the decided class once more.
+
+    Run after the timed decode so tracing does not slow the timed contraction.
+    """
+    pure = decoder.pure_error(result.syndrome)
+    network = decoder.builder.network(pure, result.decision)
+    if network.is_zero:
+        return 0.0
+    tracemalloc.start()
+    try:
+        base = tracemalloc.get_traced_memory()[0]
+        tracemalloc.reset_peak()
+        decoder.strategy.contract(decoder.plan, network)
+        peak = tracemalloc.get_traced_memory()[1]
+    finally:
+        tracemalloc.stop()
+    return float(max(peak - base, 0))
+
+
+def failed_row(reason: str) -> dict[str, Any]:
+    return {"status": "failed", "reason": reason, "worker": os.getpid()}
+
+
+def _total(stats: list[dict], key: str) -> float | None:
+    values = [s[key] for s in stats if key in s]
+    return float(sum(values)) if values else None
+
+
+def _largest(stats: list[dict], key: str, scale: float = 1.0) -> float | None:
+    values = [s[key] for s in stats if key in s]
+    return float(max(values) * scale) if values else None
