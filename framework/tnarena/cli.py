@@ -32,6 +32,8 @@ examples:
   tnarena write-code --code surface --lattice kagome --size 3 -o kagome3.json
   tnarena new-plugin my_sweep --dir plugins   write a strategy plugin to start from
   tnarena demo                          decode a few seeded instances with the defaults
+  tnarena run studies/demo.toml         run (or resume) a head-to-head study; summary table at the end
+  tnarena compare --size 7 --setting sweep:chi=8 --setting exact    quick head-to-head, no study file
 
 A decode draws one error from the noise model (seeded), computes ln P of every
 logical class of its syndrome with the chosen strategy, and picks the largest
@@ -98,6 +100,10 @@ def _parser() -> argparse.ArgumentParser:
 
     p = sub.add_parser("demo", help="decode a few seeded instances on built-in defaults")
     p.set_defaults(run=_run_demo)
+
+    from tnarena.cli_arena import add_commands
+
+    add_commands(sub)
     return parser
 
 

@@ -114,16 +114,20 @@ class Decoder:
     strategy : Strategy
     params : dict, optional
         Strategy parameters (validated; missing ones take their defaults).
+    plan : optional
+        A plan this strategy made earlier for the same structure and params
+        (e.g. in another process); planned here when None.
     """
 
-    def __init__(self, code: PauliCode, noise: np.ndarray, strategy: Strategy, params: dict | None = None) -> None:
+    def __init__(self, code: PauliCode, noise: np.ndarray, strategy: Strategy, params: dict | None = None,
+                 *, plan: Any = None) -> None:
         self.code = code
         self.strategy = strategy
         self.params = strategy.resolve(params)
         self.builder = NetworkBuilder(code, noise)
         self.syndromes = SyndromeSolver(code)
         start = time.perf_counter()
-        self.plan = _call(strategy, "plan", self.builder.structure, self.params)
+        self.plan = plan if plan is not None else _call(strategy, "plan", self.builder.structure, self.params)
         self.plan_seconds = time.perf_counter() - start
 
     def pure_error(self, syndrome: np.ndarray) -> np.ndarray:

@@ -42,7 +42,7 @@ class _Worker:
 class LocalPool:
     """Run chunks on ``workers`` processes.
 
-    time_limit : seconds per task (one decode, including planning the first time);
+    time_limit : seconds per unit of work (one plan, or one decode);
     memory_limit : MiB of address space a worker may add (None: unlimited).
     """
 

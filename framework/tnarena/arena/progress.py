@@ -12,8 +12,8 @@ REDRAW_SECONDS, LOG_SECONDS = 0.5, 30.0
 class Progress:
     """Counts finished tasks out of ``total``; ``stream=None`` keeps quiet."""
 
-    def __init__(self, total: int, stream: TextIO | None) -> None:
-        self.total, self.stream = total, stream
+    def __init__(self, total: int, stream: TextIO | None, unit: str = "tasks") -> None:
+        self.total, self.stream, self.unit = total, stream, unit
         self.done = self.failed = 0
         self.start = self._last = time.monotonic()
         self._tty = bool(stream is not None and getattr(stream, "isatty", lambda: False)())
@@ -36,7 +36,7 @@ class Progress:
         rate = self.done / elapsed if elapsed > 0 else 0.0
         eta = (self.total - self.done) / rate if rate > 0 else float("nan")
         failed = f", {self.failed} failed" if self.failed else ""
-        return (f"[{'#' * filled}{'.' * (width - filled)}] {self.done}/{self.total} tasks "
+        return (f"[{'#' * filled}{'.' * (width - filled)}] {self.done}/{self.total} {self.unit} "
                 f"{100 * frac:3.0f}%  {rate:.2f}/s  elapsed {_clock(elapsed)}  ETA {_clock(eta)}{failed}")
 
     def _draw(self, force: bool = False) -> None:

@@ -2,8 +2,10 @@
 
 Two phases. First every compared setting and the reference at every point;
 then the fallback reference at the points where the reference failed (its
-plan refused, a time or memory limit). Tasks already in the store are never
-run again, so running a study twice resumes it.
+plan refused, a time or memory limit). Each phase plans every (point,
+setting) once, in the workers, and stores the pickled plan; then decodes
+with it. Plans and tasks already in the store are never made again, so
+running a study twice resumes it, with the same plans.
 """
 
 from __future__ import annotations
@@ -19,7 +21,7 @@ from tnarena.arena.pool import LocalPool
 from tnarena.arena.progress import Progress
 from tnarena.arena.store import Store
 from tnarena.arena.study import Point, Setting, Study
-from tnarena.arena.worker import Chunk, build_code_and_noise
+from tnarena.arena.worker import PLAN_UNIT, Chunk, build_code_and_noise
 from tnarena.catalog import Catalog
 from tnarena.errors import TnarenaError
 from tnarena.network.builder import NetworkBuilder
@@ -48,43 +50,78 @@ def run_study(study: Study, store: Store, catalog: Catalog, *, workers: int = 1,
     store.bind_study(study.seed, study.title, study.source)
     point_ids = prepare_points(study, store, catalog, progress)
     setting_ids = store.set_settings(_setting_rows(study, catalog))
-    make = executor or LocalPool
-    pool = make(catalog, workers, time_limit=study.time_limit, memory_limit=study.memory_limit)
-
-    first = study.settings + ([study.reference] if study.reference not in study.settings else [])
-    phases = [lambda: _chunks(study, store, point_ids, setting_ids, first, chunk_size)]
-    if study.fallback is not None and study.fallback not in first:
-        phases.append(lambda: _chunks(study, store, _needing_fallback(study, store, point_ids, setting_ids),
-                                      setting_ids, [study.fallback], chunk_size))
-    total_failed = total_run = 0
+    pool = (executor or LocalPool)(catalog, workers, time_limit=study.time_limit, memory_limit=study.memory_limit)
     run_id = store.start_run(workers, 0)
+    first = study.settings + ([study.reference] if study.reference not in study.settings else [])
+    counts = [0, 0]
     try:
-        for phase in phases:
-            chunks = phase()
-            if not chunks:
-                continue
-            bar = Progress(sum(len(c.instances) for c in chunks), stream=progress)
-
-            def on_result(chunk: Chunk, instance: int, row: dict) -> None:
-                store.add_result(chunk.point_id, chunk.setting_id, instance, run_id, row)
-                bar.advance(failed=row["status"] != "ok")
-
-            pool.run(chunks, on_result)
-            bar.close()
-            total_run += bar.done
-            total_failed += bar.failed
+        _run_phase(study, store, pool, run_id, point_ids, setting_ids, first, chunk_size, progress, counts)
+        if study.fallback is not None and study.fallback not in first:
+            needing = _needing_fallback(study, store, point_ids, setting_ids)
+            _run_phase(study, store, pool, run_id, needing, setting_ids, [study.fallback], chunk_size, progress,
+                       counts)
     finally:
         store.finish_run(run_id)
-    return RunOutcome(run_id, total_run, total_failed, time.monotonic() - start)
+    return RunOutcome(run_id, counts[0], counts[1], time.monotonic() - start)
+
+
+def _run_phase(study: Study, store: Store, pool, run_id: int, point_ids: dict[Point, int],
+               setting_ids: dict[str, int], settings: list[Setting], chunk_size: int,
+               progress: TextIO | None, counts: list[int]) -> None:
+    """Plan every (point, setting) with missing tasks that has no plan yet, then decode."""
+    pending = _pending(study, store, point_ids, setting_ids, settings)
+    plans = store.plans()
+    to_plan = [Chunk(point, setting, pid, sid, (PLAN_UNIT,), study.seed, study.trace_memory, kind="plan")
+               for (point, setting, pid, sid), todo in pending.items() if todo and (pid, sid) not in plans]
+    if to_plan:
+        bar = Progress(len(to_plan), stream=progress, unit="plans")
+
+        def on_plan(chunk: Chunk, unit: int, row: dict) -> None:
+            store.add_plan(chunk.point_id, chunk.setting_id, run_id, row)
+            bar.advance(failed=row["status"] != "ok")
+
+        pool.run(to_plan, on_plan)
+        bar.close()
+        plans = store.plans()
+    chunks, refused = [], []
+    for (point, setting, pid, sid), todo in pending.items():
+        plan = plans.get((pid, sid))
+        if plan is None:
+            continue
+        if plan["status"] != "ok":
+            refused += [(pid, sid, i, plan["reason"]) for i in todo]
+            continue
+        for at in range(0, len(todo), chunk_size):
+            chunks.append(Chunk(point, setting, pid, sid, tuple(todo[at:at + chunk_size]), study.seed,
+                                study.trace_memory, plan=plan["plan"]))
+    total = len(refused) + sum(len(c.instances) for c in chunks)
+    if not total:
+        return
+    bar = Progress(total, stream=progress, unit="tasks")
+
+    def on_result(chunk: Chunk, instance: int, row: dict) -> None:
+        store.add_result(chunk.point_id, chunk.setting_id, instance, run_id, row)
+        bar.advance(failed=row["status"] != "ok")
+
+    for pid, sid, instance, reason in refused:  # no plan: every task fails for the plan's reason
+        store.add_result(pid, sid, instance, run_id, {"status": "failed", "reason": reason})
+        bar.advance(failed=True)
+    pool.run(chunks, on_result)
+    bar.close()
+    counts[0] += bar.done
+    counts[1] += bar.failed
 
 
 def prepare_points(study: Study, store: Store, catalog: Catalog, progress: TextIO | None) -> dict[Point, int]:
     """Build each point's code and noise once (catching impossible ones early); record them."""
     ids = {}
     codes: dict[str, object] = {}
+    tty = progress is not None and getattr(progress, "isatty", lambda: False)()
+    if progress is not None and not tty:
+        print(f"preparing {len(study.points)} point(s)", file=progress, flush=True)
     for i, point in enumerate(study.points):
-        if progress is not None:
-            print(f"\rpreparing point {i + 1}/{len(study.points)}: {point.label}", end="", file=progress,
+        if tty:
+            print(f"\rpreparing point {i + 1}/{len(study.points)}: {point.label}\033[K", end="", file=progress,
                   flush=True)
         try:
             code, table = build_code_and_noise(catalog, study.seed, point)
@@ -98,7 +135,7 @@ def prepare_points(study: Study, store: Store, catalog: Catalog, progress: TextI
             "distances": json.dumps(dict(code.distances)), "fingerprint": structure.fingerprint,
             "nodes": structure.num_nodes,
         })
-    if progress is not None and study.points:
+    if tty:
         print(file=progress)
     return ids
 
@@ -110,18 +147,16 @@ def _setting_rows(study: Study, catalog: Catalog) -> list[dict]:
             for s in study.all_settings]
 
 
-def _chunks(study: Study, store: Store, point_ids: dict[Point, int], setting_ids: dict[str, int],
-            settings: list[Setting], chunk_size: int) -> list[Chunk]:
+def _pending(study: Study, store: Store, point_ids: dict[Point, int], setting_ids: dict[str, int],
+             settings: list[Setting]) -> dict[tuple, list[int]]:
+    """(point, setting, point id, setting id) -> instances with no stored result."""
     done = store.finished_tasks()
-    chunks = []
+    out = {}
     for point, pid in point_ids.items():
         for setting in settings:
             sid = setting_ids[setting.key]
-            todo = [i for i in range(study.samples) if (pid, sid, i) not in done]
-            for at in range(0, len(todo), chunk_size):
-                chunks.append(Chunk(point, setting, pid, sid, tuple(todo[at:at + chunk_size]), study.seed,
-                                    study.trace_memory))
-    return chunks
+            out[(point, setting, pid, sid)] = [i for i in range(study.samples) if (pid, sid, i) not in done]
+    return out
 
 
 def _needing_fallback(study: Study, store: Store, point_ids: dict[Point, int],

@@ -33,6 +33,13 @@ CREATE TABLE IF NOT EXISTS settings (
     strategy TEXT NOT NULL, params TEXT NOT NULL, exact INTEGER NOT NULL,
     compared INTEGER NOT NULL DEFAULT 0, reference INTEGER NOT NULL DEFAULT 0,
     fallback INTEGER NOT NULL DEFAULT 0);
+CREATE TABLE IF NOT EXISTS plans (
+    point_id INTEGER NOT NULL REFERENCES points(id),
+    setting_id INTEGER NOT NULL REFERENCES settings(id),
+    run_id INTEGER NOT NULL REFERENCES runs(id),
+    status TEXT NOT NULL CHECK (status IN ('ok', 'failed')),
+    reason TEXT, seconds REAL, plan BLOB, worker INTEGER, finished REAL NOT NULL,
+    PRIMARY KEY (point_id, setting_id));
 CREATE TABLE IF NOT EXISTS results (
     point_id INTEGER NOT NULL REFERENCES points(id),
     setting_id INTEGER NOT NULL REFERENCES settings(id),
@@ -40,7 +47,7 @@ CREATE TABLE IF NOT EXISTS results (
     run_id INTEGER NOT NULL REFERENCES runs(id),
     status TEXT NOT NULL CHECK (status IN ('ok', 'failed')),
     reason TEXT,
-    classes TEXT, log_probs TEXT, decision TEXT, true_class TEXT, logical_failure INTEGER,
+    syndrome TEXT, classes TEXT, log_probs TEXT, decision TEXT, true_class TEXT, logical_failure INTEGER,
     contract_seconds REAL, decode_seconds REAL, plan_seconds REAL,
     flops REAL, intermediate_bytes REAL, traced_peak_bytes REAL, discarded_weight REAL,
     worker INTEGER, finished REAL NOT NULL,
@@ -48,7 +55,7 @@ CREATE TABLE IF NOT EXISTS results (
 """
 
 #: What a worker reports for a task (besides point, setting, instance).
-RESULT_COLUMNS = ("status", "reason", "classes", "log_probs", "decision", "true_class", "logical_failure",
+RESULT_COLUMNS = ("status", "reason", "syndrome", "classes", "log_probs", "decision", "true_class", "logical_failure",
                   "contract_seconds", "decode_seconds", "plan_seconds", "flops", "intermediate_bytes",
                   "traced_peak_bytes", "discarded_weight", "worker")
 
@@ -126,6 +133,18 @@ class Store:
     def finish_run(self, run_id: int) -> None:
         with self._transaction():
             self.db.execute("UPDATE runs SET finished = ? WHERE id = ?", (time.time(), run_id))
+
+    def plans(self) -> dict[tuple[int, int], sqlite3.Row]:
+        """(point id, setting id) -> its plans row (status, reason, seconds, plan)."""
+        return {(r["point_id"], r["setting_id"]): r for r in self.db.execute("SELECT * FROM plans")}
+
+    def add_plan(self, point_id: int, setting_id: int, run_id: int, row: dict[str, Any]) -> None:
+        with self._transaction():
+            self.db.execute(
+                "INSERT INTO plans (point_id, setting_id, run_id, status, reason, seconds, plan, worker, finished) "
+                "VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?)",
+                (point_id, setting_id, run_id, row["status"], row.get("reason"), row.get("plan_seconds"),
+                 row.get("plan"), row.get("worker"), time.time()))
 
     def finished_tasks(self) -> set[tuple[int, int, int]]:
         """(point id, setting id, instance) of every task with a stored result."""

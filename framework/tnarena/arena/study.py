@@ -177,6 +177,14 @@ def _check_keys(table: dict[str, Any], allowed: dict[str, Any], where: str) -> N
 _KIND_WORDS = {str: "a string", int: "an integer", (int, float): "a number", list: "a list", dict: "a table"}
 
 
+def _known(lookup, name: str, where: str) -> Any:
+    """A catalog entry by name; an unknown name says where it was written and what is known."""
+    try:
+        return lookup(name)
+    except TnarenaError as exc:
+        raise TnarenaError(f"{where}: {exc}") from None
+
+
 def _tables(data: dict[str, Any], key: str, where: str) -> list[dict[str, Any]]:
     entries = data[key]
     if not entries:
@@ -192,7 +200,7 @@ def _code(entry: dict[str, Any], catalog: Catalog, where: str) -> list[tuple[str
     if "family" not in entry or "sizes" not in entry:
         raise TnarenaError(f"{where}: give family and sizes (and lattices, for families built on a lattice).")
     family = entry["family"]
-    catalog.code_family(family)  # raises, listing the known families
+    _known(catalog.code_family, family, where)
     lattices = entry.get("lattices", [None])
     if not lattices:
         raise TnarenaError(f"{where}: lattices is empty; name at least one lattice family or leave the key out.")
@@ -200,7 +208,7 @@ def _code(entry: dict[str, Any], catalog: Catalog, where: str) -> list[tuple[str
         if lat is not None:
             if not isinstance(lat, str):
                 raise TnarenaError(f"{where}: lattices holds {lat!r}; give lattice family names as strings.")
-            catalog.lattice(lat)
+            _known(catalog.lattice, lat, where)
     sizes = entry["sizes"]
     if not sizes:
         raise TnarenaError(f"{where}: sizes is empty; give at least one size.")
@@ -214,7 +222,7 @@ def _noise(entry: dict[str, Any], catalog: Catalog, where: str) -> list[tuple[st
     _check_keys(entry, _NOISE, where)
     if "model" not in entry or "rates" not in entry:
         raise TnarenaError(f"{where}: give model and rates.")
-    model = catalog.noise_model(entry["model"])
+    model = _known(catalog.noise_model, entry["model"], where)
     options = entry.get("options", {})
     rates = entry["rates"]
     if not rates:
@@ -237,7 +245,7 @@ def _settings(entry: dict[str, Any], catalog: Catalog, where: str) -> list[Setti
     _check_keys(entry, _STRATEGY, where)
     if "name" not in entry:
         raise TnarenaError(f"{where}: give the strategy's name (tnarena list strategies).")
-    strategy = catalog.strategy(entry["name"])
+    strategy = _known(catalog.strategy, entry["name"], where)
     fixed, grid = entry.get("params", {}), entry.get("grid", {})
     both = sorted(set(fixed) & set(grid))
     if both:
@@ -273,7 +281,7 @@ def _reference(entry: dict[str, Any], settings: list[Setting], catalog: Catalog,
 
 
 def _one_setting(name: str, params: dict[str, Any], catalog: Catalog, where: str) -> Setting:
-    strategy = catalog.strategy(name)
+    strategy = _known(catalog.strategy, name, where)
     try:
         strategy.resolve(params)
     except TnarenaError as exc:

@@ -1,15 +1,19 @@
 """What runs inside a worker process: decode one instance with one setting, measure it.
 
-A :class:`Chunk` is a run of instances of one (point, setting); the worker
-builds the code, noise table and decoder (one plan) once per chunk's point
-and setting, keeps them for later chunks, and reports one result row per
-instance (columns of :data:`tnarena.arena.store.RESULT_COLUMNS`).
+A :class:`Chunk` is work on one (point, setting): either making its plan
+(once per study: the pickled plan goes to the store and to every worker, so
+every instance is contracted with the same plan, whatever the number of
+workers), or decoding a run of instances with that plan. The worker builds
+the code, noise table and decoder once per chunk's point and setting, keeps
+them for later chunks, and reports one row per unit (columns of
+:data:`tnarena.arena.store.RESULT_COLUMNS`).
 """
 
 from __future__ import annotations
 
 import math
 import os
+import pickle
 import time
 import tracemalloc
 from collections import OrderedDict
@@ -22,7 +26,7 @@ from tnarena.arena.seeds import instance_rng, integer_seed
 from tnarena.arena.study import Point, Setting
 from tnarena.catalog import Catalog
 from tnarena.decode import Decoder, class_label
-from tnarena.errors import TnarenaError
+from tnarena.errors import PluginError, TnarenaError
 
 #: Bytes per element of the strategies' arrays (float64), to turn element counts into bytes.
 BYTES_PER_ELEMENT = 8
@@ -30,9 +34,17 @@ BYTES_PER_ELEMENT = 8
 DECODER_CACHE = 8
 
 
+#: The one unit of a plan chunk (decode chunks hold instance numbers >= 0).
+PLAN_UNIT = -1
+
+
 @dataclass(frozen=True)
 class Chunk:
-    """Instances of one point run with one setting. Ids are the database's."""
+    """Work on one (point, setting). Ids are the database's.
+
+    kind 'plan' : make the plan once (units: (PLAN_UNIT,)); its row carries the pickled plan.
+    kind 'decode' : decode these instances with ``plan`` (pickled; None: plan in the worker).
+    """
 
     point: Point
     setting: Setting
@@ -41,6 +53,8 @@ class Chunk:
     instances: tuple[int, ...]
     seed: int
     trace_memory: int
+    kind: str = "decode"
+    plan: bytes | None = None
 
 
 def build_code_and_noise(catalog: Catalog, seed: int, point: Point):
@@ -71,8 +85,8 @@ class TaskRunner:
         self._codes: dict[tuple[int, str], Any] = {}
         self._decoders: OrderedDict[tuple[int, str, str], Decoder | TnarenaError] = OrderedDict()
 
-    def run(self, chunk: Chunk, instance: int) -> dict[str, Any]:
-        """Decode one instance; a result row (failures included, never raises)."""
+    def run(self, chunk: Chunk, unit: int) -> dict[str, Any]:
+        """Plan, or decode one instance; a result row (failures included, never raises)."""
         try:
             decoder, plan_seconds = self._decoder(chunk)
         except TnarenaError as exc:
@@ -81,15 +95,18 @@ class TaskRunner:
             return failed_row("memory limit exceeded while planning")
         except Exception as exc:  # noqa: BLE001 - a broken strategy must not stop the study
             return failed_row(f"{type(exc).__name__} while planning: {exc}")
+        if chunk.kind == "plan":
+            return {"status": "ok", "plan": _pickled(decoder.plan), "plan_seconds": plan_seconds,
+                    "worker": os.getpid()}
         try:
-            return self._decode(chunk, decoder, instance, plan_seconds)
-        except MemoryError:
-            return failed_row("memory limit exceeded")
+            return self._decode(chunk, decoder, unit, plan_seconds)
         except Exception as exc:  # noqa: BLE001
-            return failed_row(f"{type(exc).__name__}: {exc}")
+            if isinstance(exc, MemoryError) or isinstance(exc.__cause__, MemoryError):
+                return failed_row(f"memory limit exceeded ({exc.__cause__ or exc})")
+            return failed_row(str(exc) if isinstance(exc, PluginError) else f"{type(exc).__name__}: {exc}")
 
     def _decoder(self, chunk: Chunk) -> tuple[Decoder, float]:
-        """The cached decoder and the plan time to report (0 when it was planned before)."""
+        """The cached decoder and the time spent planning here (0 when the plan came with the chunk)."""
         key = (chunk.seed, chunk.point.key, chunk.setting.key)
         if key in self._decoders:
             self._decoders.move_to_end(key)
@@ -99,13 +116,14 @@ class TaskRunner:
             return cached, 0.0
         code, table = self._code(chunk)
         strategy = self.catalog.strategy(chunk.setting.strategy)
+        given = None if chunk.plan is None else pickle.loads(chunk.plan)
         try:
-            decoder = Decoder(code, table, strategy, dict(chunk.setting.params))
+            decoder = Decoder(code, table, strategy, dict(chunk.setting.params), plan=given)
         except TnarenaError as exc:
             self._remember(key, exc)
             raise
         self._remember(key, decoder)
-        return decoder, decoder.plan_seconds
+        return decoder, 0.0 if given is not None else decoder.plan_seconds
 
     def _remember(self, key, value) -> None:
         self._decoders[key] = value
@@ -127,6 +145,7 @@ class TaskRunner:
         stats = [c.stats for c in result.classes]
         row = {
             "status": "ok",
+            "syndrome": syndrome_hex(result.syndrome),
             "classes": [c.label for c in result.classes],
             "log_probs": [None if math.isinf(c.log_prob) else c.log_prob for c in result.classes],
             "decision": class_label(result.decision),
@@ -143,6 +162,11 @@ class TaskRunner:
         if instance < chunk.trace_memory:
             row["traced_peak_bytes"] = traced_peak(decoder, result)
         return row
+
+
+def syndrome_hex(syndrome: np.ndarray) -> str:
+    """The syndrome bits (shape (s,), 0/1) packed big-endian into hex, as stored."""
+    return np.packbits(np.asarray(syndrome, dtype=np.uint8)).tobytes().hex()
 
 
 def traced_peak(decoder: Decoder, result) -> float:
@@ -163,6 +187,14 @@ def traced_peak(decoder: Decoder, result) -> float:
     finally:
         tracemalloc.stop()
     return float(max(peak - base, 0))
+
+
+def _pickled(plan: Any) -> bytes | None:
+    """The plan as bytes to ship to other workers; None when it cannot be pickled (each plans itself)."""
+    try:
+        return pickle.dumps(plan, protocol=pickle.HIGHEST_PROTOCOL)
+    except Exception:  # noqa: BLE001 - e.g. a plan holding a lambda or an open handle
+        return None
 
 
 def failed_row(reason: str) -> dict[str, Any]:

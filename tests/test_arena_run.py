@@ -1,0 +1,168 @@
+"""The arena: identical seeded instances, determinism, resume after SIGKILL, failure isolation.
+
+Sources: numpy's SeedSequence documentation (independent streams keyed by a
+list of integers); SQLite's documentation (a committed WAL transaction
+survives the writer being killed); the rest is common practice for
+reproducible Monte Carlo studies (shared/REFERENCES.md, "common practice").
+"""
+
+import hashlib
+import json
+import os
+import signal
+import sqlite3
+import subprocess
+import sys
+import time
+
+import numpy as np
+import pytest
+
+import flaky_plugin
+from tnarena.arena.runner import run_study
+from tnarena.arena.store import Store
+from tnarena.arena.study import parse_study
+from tnarena.arena.summary import summarise, task_metrics
+from tnarena.catalog import load_catalog
+from tnarena.noise import make_noise, sample_errors
+
+SMALL = {
+    "title": "small", "seed": 11, "samples": 5,
+    "codes": [{"family": "surface", "lattices": ["square", "hexagonal"], "sizes": [3, 4]}],
+    "noise": [{"model": "bit_flip", "rates": [0.1]}, {"model": "depolarizing", "rates": [0.12]}],
+    "strategies": [{"name": "sweep", "grid": {"chi": [2, 32]}}, {"name": "columns", "params": {"chi": 4}},
+                   {"name": "exact", "params": {"max_repeats": 8}}],
+    "reference": {"strategy": "exact", "params": {"max_repeats": 8}},
+}
+
+
+def run(catalog, data, db, workers=1, **kw):
+    store = Store(str(db))
+    outcome = run_study(parse_study(data, catalog), store, catalog, workers=workers, progress=None, **kw)
+    return store, outcome
+
+
+def results(db) -> list[tuple]:
+    with sqlite3.connect(str(db)) as con:
+        return con.execute(
+            "SELECT p.key, s.key, r.instance, r.status, r.syndrome, r.log_probs, r.decision, r.true_class "
+            "FROM results r JOIN points p ON p.id = r.point_id JOIN settings s ON s.id = r.setting_id "
+            "ORDER BY p.key, s.key, r.instance").fetchall()
+
+
+@pytest.fixture(scope="module")
+def small_db(catalog, tmp_path_factory):
+    db = tmp_path_factory.mktemp("arena") / "small.db"
+    run(catalog, SMALL, db, workers=1)
+    return db
+
+
+def test_every_setting_sees_the_same_seeded_errors(catalog, small_db):
+    """Each instance's error is drawn from SeedSequence([seed, sha256 words of the point key, instance]).
+
+    Recomputed here from numpy's SeedSequence directly; every setting at a
+    point must have stored the syndrome of exactly that error.
+    """
+    rows = results(small_db)
+    assert len(rows) == 8 * 4 * 5 and all(r[3] == "ok" for r in rows)
+    for point_key, _, instance, _, syndrome, *_ in rows:
+        point = json.loads(point_key)
+        words = [int.from_bytes(hashlib.sha256(point_key.encode()).digest()[i:i + 4], "little") for i in (0, 4, 8, 12)]
+        code = catalog.build_code(point["family"], point["lattice"], point["size"])
+        table = make_noise(point["model"], code.n, point["rate"])
+        error = sample_errors(table, np.random.default_rng(np.random.SeedSequence([11, *words, instance])))
+        assert syndrome == np.packbits(code.syndrome(error)).tobytes().hex()
+
+
+def test_one_and_two_workers_store_identical_results(catalog, small_db, tmp_path):
+    run(catalog, SMALL, tmp_path / "two.db", workers=2, chunk_size=2)
+    assert results(tmp_path / "two.db") == results(small_db)  # bit for bit: same plans, same arrays
+
+
+def test_exact_reference_gives_zero_error_and_sweep_converges(catalog, small_db):
+    """Sweep at chi 32 on these small patches is exact to rounding (as in the sweep plugin's tests, 1e-10)."""
+    rows = {(r.point, r.setting): r for r in summarise(task_metrics(Store(str(small_db))))}
+    for (point, setting), r in rows.items():
+        assert r.reference == "exact(max_repeats=8)" and not r.approximate_reference
+        if setting.startswith("exact"):
+            assert r.mean_abs_error == 0.0 and r.agreement == 1.0
+        if setting == "sweep(chi=32)":
+            assert r.max_abs_error < 1e-10 and r.agreement == 1.0
+
+
+def test_refused_reference_falls_back_to_the_largest_chi_and_says_so(catalog, tmp_path):
+    data = dict(SMALL, samples=2, noise=[{"model": "bit_flip", "rates": [0.1]}],
+                codes=[{"family": "surface", "lattices": ["square"], "sizes": [3]}],
+                strategies=[{"name": "sweep", "grid": {"chi": [2, 16]}}],
+                reference={"strategy": "exact", "params": {"max_intermediate": 2}})
+    store, _ = run(catalog, data, tmp_path / "fallback.db")
+    metrics = task_metrics(store)
+    exact_rows = [m for m in metrics if m["strategy"] == "exact"]
+    assert exact_rows and all(m["status"] == "failed" and "plan refused" in m["reason"] for m in exact_rows)
+    for row in summarise(metrics):
+        assert row.reference == "sweep(chi=16)" and row.approximate_reference
+
+
+def test_resume_after_sigkill_loses_nothing_and_recomputes_nothing(tmp_path):
+    """SIGKILL the whole study part-way (parent and workers), run it again, check every task once."""
+    study = tmp_path / "long.toml"
+    study.write_text(
+        'title = "long"\nseed = 5\nsamples = 60\n'
+        '[[codes]]\nfamily = "surface"\nlattices = ["square"]\nsizes = [7]\n'
+        '[[noise]]\nmodel = "bit_flip"\nrates = [0.08, 0.12]\n'
+        '[[strategies]]\nname = "sweep"\ngrid = { chi = [4, 8, 12] }\n'
+        '[reference]\nstrategy = "sweep"\nparams = { chi = 12 }\n')
+    db = tmp_path / "long.db"
+    total = 60 * 2 * 3
+    argv = [sys.executable, "-m", "tnarena.cli", "run", str(study), "--db", str(db), "--workers", "2", "--quiet"]
+    proc = subprocess.Popen(argv, start_new_session=True, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+    stored = 0
+    deadline = time.monotonic() + 120
+    while time.monotonic() < deadline and proc.poll() is None:
+        time.sleep(0.05)
+        try:
+            with sqlite3.connect(str(db), timeout=5) as con:
+                stored = con.execute("SELECT COUNT(*) FROM results").fetchone()[0]
+        except sqlite3.OperationalError:
+            continue  # not created yet
+        if stored >= 40:
+            break
+    assert proc.poll() is None, "the study ended before it could be killed; make it longer"
+    os.killpg(proc.pid, signal.SIGKILL)
+    proc.wait()
+    with sqlite3.connect(str(db)) as con:
+        before = dict(((p, s, i), (run, fin)) for p, s, i, run, fin in con.execute(
+            "SELECT point_id, setting_id, instance, run_id, finished FROM results"))
+    assert 40 <= len(before) < total
+    again = subprocess.run(argv, capture_output=True, text=True, timeout=300)
+    assert again.returncode == 0, again.stderr
+    assert "already holds" in again.stderr
+    with sqlite3.connect(str(db)) as con:
+        rows = con.execute("SELECT point_id, setting_id, instance, run_id, finished FROM results").fetchall()
+        runs = con.execute("SELECT id FROM runs ORDER BY id").fetchall()
+    keys = [(p, s, i) for p, s, i, _, _ in rows]
+    assert len(keys) == len(set(keys)) == total
+    after = {(p, s, i): (run, fin) for p, s, i, run, fin in rows}
+    assert all(after[k] == v for k, v in before.items())  # finished tasks untouched
+    assert {after[k][0] for k in after if k not in before} == {runs[-1][0]}
+
+
+@pytest.mark.skipif(not sys.platform.startswith("linux"), reason="the memory limit is an RLIMIT_AS, Linux only")
+def test_raising_hanging_and_memory_hungry_tasks_are_recorded_and_the_study_goes_on(tmp_path):
+    catalog = load_catalog(extra_plugins=[("flaky_test", flaky_plugin)])
+    data = {"title": "flaky", "seed": 3, "samples": 10, "time_limit": 3, "memory_limit": 512,
+            "codes": [{"family": "surface", "lattices": ["square"], "sizes": [3]}],
+            "noise": [{"model": "bit_flip", "rates": [0.15]}],
+            "strategies": [{"name": "flaky"}, {"name": "sweep", "params": {"chi": 4}}],
+            "reference": {"strategy": "sweep", "params": {"chi": 4}}}
+    store, outcome = run(catalog, data, tmp_path / "flaky.db", workers=2)
+    metrics = task_metrics(store)
+    flaky = [m for m in metrics if m["strategy"] == "flaky"]
+    assert len(flaky) == 10 and len(metrics) == 20
+    assert [m["reason"] for m in metrics if m["strategy"] == "sweep" and m["status"] != "ok"] == []
+    reasons = [m["reason"] or "" for m in flaky]
+    assert any(r == "strategy 'flaky' raised RuntimeError in contract(): flaky strategy refuses this network"
+               for r in reasons)
+    assert any(r == "time limit exceeded (3 s)" for r in reasons)
+    assert any(r.startswith("memory limit exceeded (Unable to allocate 2.00 GiB") for r in reasons)
+    assert outcome.tasks_failed == sum(m["status"] == "failed" for m in flaky) >= 3
