@@ -151,3 +151,17 @@ def test_greedy_method_gives_the_same_values(catalog):
 def test_bad_parameters_are_refused(catalog, params, message):
     with pytest.raises(TnarenaError, match=message):
         catalog.strategy("exact").resolve(params)
+
+
+def test_same_seed_gives_the_same_tree_in_one_process(catalog):
+    """Reproducibility (common practice, shared/REFERENCES.md): a seeded search is repeatable.
+
+    The search is bounded by max_repeats (not by time), so the same seed must
+    give the same contraction path however many searches ran before it.
+    """
+    code = catalog.build_code("surface", "hexagonal", 5)
+    structure = NetworkBuilder(code, make_noise("bit_flip", code.n, 0.1)).structure
+    strategy = catalog.strategy("exact")
+    params = strategy.resolve({"search_time": 1e6, "max_repeats": 16, "seed": 4})
+    paths = [strategy.plan(structure, params).tree.get_ssa_path() for _ in range(3)]
+    assert paths[0] == paths[1] == paths[2]

@@ -12,7 +12,9 @@ from __future__ import annotations
 
 import importlib.util
 import math
+import random
 import sys
+from contextlib import contextmanager
 from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import Any
@@ -93,7 +95,8 @@ class ExactTree(Strategy):
         tree = ctg.array_contract_tree(inputs, (), size_dict, optimize="greedy")
         if optimizer != "greedy":
             # a short search budget may end before its first good trial: keep greedy as a floor
-            searched = ctg.array_contract_tree(inputs, (), size_dict, optimize=optimizer)
+            with _seeded_global_random(params["seed"]):
+                searched = ctg.array_contract_tree(inputs, (), size_dict, optimize=optimizer)
             if searched.combo_cost() < tree.combo_cost():
                 tree = searched
         largest = float(tree.max_size())
@@ -127,6 +130,23 @@ class ExactTree(Strategy):
         value = float(np.abs(mantissa))
         log_value = -math.inf if value == 0.0 else math.log(value) + float(exponent) * math.log(10.0)
         return Estimate(log_value, stats)
+
+
+@contextmanager
+def _seeded_global_random(seed: int):
+    """Seed Python's global ``random`` for the search, then restore it.
+
+    Some of cotengra's trial functions draw from the global generator, so
+    without this the same seed gave different (equally cheap) trees in one
+    process. With it the tree depends only on the seed, as long as the search
+    ends by ``max_repeats`` rather than by ``search_time``.
+    """
+    state = random.getstate()
+    random.seed(seed)
+    try:
+        yield
+    finally:
+        random.setstate(state)
 
 
 def _blas_threads(threads: int):
