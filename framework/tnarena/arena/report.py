@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import csv
 import datetime
+import importlib.util
 import json
 import math
 from collections.abc import Sequence
@@ -23,6 +24,7 @@ import numpy as np
 from tnarena.arena import summary as _summary
 from tnarena.arena.store import Store
 from tnarena.arena.summary import TASK_COLUMNS, SummaryRow, summarise, task_metrics
+from tnarena.errors import TnarenaError
 
 #: Errors below this are drawn at it on log axes (the reference itself has error 0).
 ERROR_FLOOR = 1e-16
@@ -179,6 +181,9 @@ def write_report(store: Store, out_dir: str | Path) -> Path:
     (e.g. ``surface-square-bit_flip``): ``accuracy-G.png``, ``memory-G.png``,
     ``failure-G.png``. Needs matplotlib (drawn with the Agg backend).
     """
+    if importlib.util.find_spec("matplotlib") is None:
+        raise TnarenaError("the report draws its plots with matplotlib, which is not installed; "
+                           "install it (pip install matplotlib) and run the report again.")
     from tnarena.arena import report_plots
 
     out = Path(out_dir)
@@ -267,7 +272,8 @@ def _accuracy_caption(group: Group) -> str:
 
 _MEMORY_CAPTION = ("Peak memory per strategy setting: for each setting the left bar is the strategy's own largest "
                    "intermediate tensor and the right bar the tracemalloc peak around the contraction (Python "
-                   "overhead included), each the largest over every size and rate here, in bytes on a log axis.")
+                   "overhead included), each the largest over the tasks that finished at any size and rate here "
+                   "(a failed setting shows its smaller sizes only), in bytes on a log axis.")
 _FAILURE_CAPTION = ("Logical failure rate against physical error rate: one line per size for the reference "
                     "setting with Wilson 95% intervals over the instances of each point, other settings as "
                     "faint dotted lines; where a larger size lies below a smaller one the code is below threshold.")
