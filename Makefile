@@ -19,7 +19,8 @@ $(STAMP): pyproject.toml $(PLUGINS)
 	@touch $(STAMP)
 
 demo: $(STAMP)
-	$(BIN)/tnarena demo
+	@rm -f demo-output/demo.db demo-output/demo.db-wal demo-output/demo.db-shm
+	$(BIN)/tnarena run studies/demo.toml --db demo-output/demo.db --report demo-output/report
 
 test: $(STAMP)
 	$(BIN)/python -m pytest -q

@@ -55,6 +55,9 @@ def main(argv: Sequence[str] | None = None) -> int:
     except PluginError as exc:
         print(f"tnarena: plugin error: {exc}", file=sys.stderr)
         return 3
+    except BrokenPipeError:  # output piped into head and the like
+        sys.stderr.close()
+        return 0
 
 
 def _parser() -> argparse.ArgumentParser:

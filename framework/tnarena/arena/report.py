@@ -21,9 +21,8 @@ from typing import Any
 
 import numpy as np
 
-from tnarena.arena import summary as _summary
 from tnarena.arena.store import Store
-from tnarena.arena.summary import TASK_COLUMNS, SummaryRow, summarise, task_metrics
+from tnarena.arena.summary import TASK_COLUMNS, SummaryRow, largest, summarise, summary_cells, task_metrics
 from tnarena.errors import TnarenaError
 
 #: Errors below this are drawn at it on log axes (the reference itself has error 0).
@@ -32,7 +31,7 @@ ERROR_FLOOR = 1e-16
 Z95 = 1.959963984540054
 
 _TABLE_HEAD = ("setting", "ok/tasks", "mean abs ΔlnP", "max abs ΔlnP", "agree", "fail rate", "ms/decode",
-               "plan ms", "peak MiB", "traced MiB")
+               "plan ms", "peak memory", "traced peak")
 
 
 # ---- public helpers --------------------------------------------------------------------------
@@ -135,7 +134,7 @@ class Group:
         for markers in self.markers.values():
             for m in markers:
                 out.setdefault(m.setting, []).append(m)
-        return {s: (_summary._max(m.peak_bytes for m in ms), _summary._max(m.traced_bytes for m in ms))
+        return {s: (largest(m.peak_bytes for m in ms), largest(m.traced_bytes for m in ms))
                 for s, ms in out.items()}
 
     @property
@@ -167,8 +166,8 @@ def _marker(setting: str, ms: list[dict[str, Any]]) -> Marker:
         setting=setting,
         median_ms=1e3 * float(np.median([m["contract_seconds"] for m in ok])) if ok else None,
         mean_error=float(np.mean(errors)) if errors else (0.0 if with_ref else None),
-        peak_bytes=_summary._max(m["intermediate_bytes"] for m in ok),
-        traced_bytes=_summary._max(m["traced_peak_bytes"] for m in ok),
+        peak_bytes=largest(m["intermediate_bytes"] for m in ok),
+        traced_bytes=largest(m["traced_peak_bytes"] for m in ok),
         is_reference=bool(ms) and all(m["setting"] == m["reference"] for m in ms),
     )
 
@@ -293,14 +292,6 @@ def _point_tables(rows: list[SummaryRow]) -> list[str]:
                       _row(_TABLE_HEAD), "|" + "|".join([":--"] + ["--:"] * (len(_TABLE_HEAD) - 1)) + "|"]
         lines.append(_row(summary_cells(r)))
     return lines
-
-
-def summary_cells(r: SummaryRow) -> tuple[str, ...]:
-    """The cells of one summary line, formatted as the terminal table prints them."""
-    return (r.setting, f"{r.tasks - r.failed}/{r.tasks}", _summary._num(r.mean_abs_error),
-            _summary._num(r.max_abs_error), _summary._pct(r.agreement), _summary._pct(r.logical_failure_rate),
-            _summary._fixed(r.median_contract_ms), _summary._fixed(r.plan_ms_per_instance),
-            _summary._mib(r.peak_intermediate_bytes), _summary._mib(r.peak_traced_bytes))
 
 
 def _failure_table(metrics: list[dict[str, Any]]) -> list[str]:

@@ -148,8 +148,8 @@ def summarise(metrics: list[dict[str, Any]]) -> list[SummaryRow]:
             median_contract_ms=1e3 * float(np.median([m["contract_seconds"] for m in ok])) if ok else None,
             plan_ms_per_instance=1e3 * ((first["shared_plan_seconds"] or 0.0)
                                         + sum(m["plan_seconds"] or 0.0 for m in ms)) / len(ms),
-            peak_intermediate_bytes=_max(m["intermediate_bytes"] for m in ok),
-            peak_traced_bytes=_max(m["traced_peak_bytes"] for m in ok),
+            peak_intermediate_bytes=largest(m["intermediate_bytes"] for m in ok),
+            peak_traced_bytes=largest(m["traced_peak_bytes"] for m in ok),
             mean_flops=_mean(m["flops"] for m in ok),
             reference=first["reference"], approximate_reference=first["approximate_reference"],
             failure_reasons=tuple(sorted({m["reason"] for m in ms if m["status"] != "ok"})),
@@ -157,7 +157,8 @@ def summarise(metrics: list[dict[str, Any]]) -> list[SummaryRow]:
     return out
 
 
-def _max(values) -> float | None:
+def largest(values) -> float | None:
+    """The largest of the values that are not None (None when there are none)."""
     vals = [v for v in values if v is not None]
     return float(max(vals)) if vals else None
 
@@ -167,26 +168,37 @@ def _mean(values) -> float | None:
     return float(np.mean(vals)) if vals else None
 
 
+#: Column names of the summary table (terminal and report).
+SUMMARY_HEADERS = ("setting", "ok/tasks", "mean|dlnP|", "max|dlnP|", "agree", "fail rate", "ms/decode",
+                   "plan ms", "peak", "traced")
+_WIDTHS = (34, 10, 12, 11, 8, 10, 11, 9, 11, 11)
+
+
+def summary_cells(r: SummaryRow) -> tuple[str, ...]:
+    """The cells of one summary line (SUMMARY_HEADERS), formatted as every table prints them."""
+    return (r.setting, f"{r.tasks - r.failed}/{r.tasks}", _num(r.mean_abs_error), _num(r.max_abs_error),
+            _pct(r.agreement), _pct(r.logical_failure_rate), _fixed(r.median_contract_ms),
+            _fixed(r.plan_ms_per_instance), _bytes(r.peak_intermediate_bytes), _bytes(r.peak_traced_bytes))
+
+
 def format_summary(rows: list[SummaryRow]) -> str:
     """The terminal table: one block per point, one line per setting."""
-    head = (f"  {'setting':<34}{'ok/tasks':>10}{'mean|dlnP|':>12}{'max|dlnP|':>11}{'agree':>8}"
-            f"{'fail rate':>10}{'ms/decode':>11}{'plan ms':>9}{'peak MiB':>10}{'traced MiB':>11}")
     lines = []
     current = None
     for r in rows:
         if r.point != current:
             current = r.point
             ref = r.reference or "none"
-            flag = "  (APPROXIMATE reference: exact was out of reach)" if r.approximate_reference else ""
-            lines += ["", f"{r.point}  n = {r.n}  reference: {ref}{flag}", head]
-        lines.append(
-            f"  {r.setting:<34}{f'{r.tasks - r.failed}/{r.tasks}':>10}{_num(r.mean_abs_error):>12}"
-            f"{_num(r.max_abs_error):>11}{_pct(r.agreement):>8}{_pct(r.logical_failure_rate):>10}"
-            f"{_fixed(r.median_contract_ms):>11}{_fixed(r.plan_ms_per_instance):>9}"
-            f"{_mib(r.peak_intermediate_bytes):>10}{_mib(r.peak_traced_bytes):>11}")
+            flag = "  (APPROXIMATE reference: the reference failed here)" if r.approximate_reference else ""
+            lines += ["", f"{r.point}  n = {r.n}  reference: {ref}{flag}", _line(SUMMARY_HEADERS)]
+        lines.append(_line(summary_cells(r)))
         for reason in r.failure_reasons:
             lines.append(f"      failed: {reason}")
     return "\n".join(lines).lstrip("\n")
+
+
+def _line(cells: tuple[str, ...]) -> str:
+    return "  " + cells[0].ljust(_WIDTHS[0]) + "".join(c.rjust(w) for c, w in zip(cells[1:], _WIDTHS[1:]))
 
 
 def _num(v: float | None) -> str:
@@ -201,5 +213,11 @@ def _fixed(v: float | None) -> str:
     return "-" if v is None else f"{v:.2f}" if v < 100 else f"{v:.0f}"
 
 
-def _mib(v: float | None) -> str:
-    return "-" if v is None else f"{v / 2**20:.2f}"
+def _bytes(v: float | None) -> str:
+    """'812 B', '12.0 KiB', '1.30 MiB', '2.10 GiB'."""
+    if v is None:
+        return "-"
+    for unit, scale in (("GiB", 2**30), ("MiB", 2**20), ("KiB", 2**10)):
+        if v >= scale:
+            return f"{v / scale:.3g} {unit}"
+    return f"{v:.0f} B"
