@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import multiprocessing as mp
 import os
+import signal
 import time
 from collections import deque
 from collections.abc import Callable
@@ -61,17 +62,19 @@ class LocalPool:
         _INHERITED_CATALOG = self.catalog
         queue = deque(chunks)
         pool: list[_Worker] = []
+        finished = False
         try:
             while queue or any(w.chunk is not None for w in pool):
-                while queue and len([w for w in pool if w.chunk is None]) == 0 and len(pool) < self.workers:
+                while queue and all(w.chunk is not None for w in pool) and len(pool) < self.workers:
                     pool.append(self._start_worker())
                 for w in pool:
                     if w.chunk is None and queue:
                         self._assign(w, queue.popleft())
                 self._wait(pool, queue, on_result)
-        finally:
+            finished = True
+        finally:  # on an interruption the workers are killed at once; what finished is stored
             for w in pool:
-                self._stop(w)
+                self._stop(w, kill=not finished)
 
     # ---- one worker --------------------------------------------------------------
     def _start_worker(self) -> _Worker:
@@ -147,6 +150,7 @@ def _worker_main(conn: Connection, memory_limit: float | None) -> None:
 
     from tnarena.catalog import load_catalog
 
+    signal.signal(signal.SIGINT, signal.SIG_IGN)  # Ctrl-C is the parent's to handle
     _limit_memory(memory_limit)
     blas = threadpool_limits(limits=1, user_api="blas")  # noqa: F841 - kept for the process's life
     catalog = _INHERITED_CATALOG if _INHERITED_CATALOG is not None else load_catalog()
