@@ -44,6 +44,17 @@ def test_sweep_at_large_chi_equals_exact_on_every_lattice(catalog, lattice):
             assert got == pytest.approx(want, rel=1e-10), (name, cls)
 
 
+@pytest.mark.parametrize("lattice", ["square", "delaunay"])
+def test_truncating_after_every_node_equals_exact_at_large_chi(catalog, lattice):
+    """truncate = 'node' (no layers) also equals the exact strategy to 1e-10 relative at chi = 64."""
+    code = catalog.build_code("surface", lattice, 3, seed=4)
+    table = make_noise("depolarizing", code.n, 0.12)
+    builder = NetworkBuilder(code, table)
+    (ex, pe), (sw, ps) = _pair(catalog, builder.structure, truncate="node")
+    network = builder.network(sample_errors(table, np.random.default_rng(3)))
+    assert sw.contract(ps, network).log_value == pytest.approx(ex.contract(pe, network).log_value, rel=1e-10)
+
+
 @pytest.mark.parametrize("direction", ["0", "90", "180", "270", "33.3", "auto"])
 def test_every_direction_gives_the_same_value(catalog, direction):
     """Directions with ties (0, 90, ...) and without (33.3) agree with exact at large chi."""
@@ -105,7 +116,8 @@ def test_ising_free_energy_matches_onsager(catalog, beta):
     ({"chi": 0}, "parameter 'chi' = 0 is outside its range"),
     ({"direction": "north"}, "takes an angle in degrees or 'auto', not 'north'"),
     ({"cutoff": -1.0}, "parameter 'cutoff' = -1.0 is outside its range"),
-    ({"bond": 3}, "has no parameter 'bond'; its parameters are: chi, direction, cutoff"),
+    ({"truncate": "row"}, "parameter 'truncate' must be one of layer, node, not 'row'"),
+    ({"bond": 3}, "has no parameter 'bond'; its parameters are: chi, direction, cutoff, truncate"),
 ])
 def test_bad_parameters_are_refused(catalog, params, message):
     with pytest.raises(TnarenaError, match=message):

@@ -2,10 +2,14 @@
 
 A line moves across the layout in a chosen direction. The bonds it currently
 crosses, in their order along the line, are the physical legs of an MPS;
-each node is absorbed as the line reaches it, and every new bond is cut to at
-most chi by SVD in canonical form. Incoming bonds that are not next to each
-other on the line (ties in projection, overlapping nodes, non-planar
-drawings) are brought together by swaps first. The geometry (order, swaps,
+each node is absorbed as the line reaches it. Nodes of degree <= 2 are first
+folded into a neighbour (see :mod:`tnarena_sweep_line.merge`). With
+``truncate = 'layer'`` (default) bonds may grow to 2 chi while the line
+crosses one layer (one lattice spacing along the direction) and are cut to
+chi by SVD in canonical form when it has crossed it, where the line is
+straight; with ``'node'`` every new bond is cut to chi at once. Incoming
+bonds that are not next to each other on the line (ties in projection,
+overlapping nodes, non-planar drawings) are brought together by swaps first. The geometry (order, swaps,
 windows) is worked out once per structure; contracting replays it.
 """
 
@@ -22,11 +26,15 @@ from tnarena.errors import TnarenaError
 from tnarena.network import DecodingNetwork, NetworkStructure
 from tnarena.strategy import Estimate, Parameter, Strategy
 
+from tnarena_sweep_line.merge import FoldedLayout, fold_small_nodes
 from tnarena_sweep_line.mps import LineMPS
-from tnarena_sweep_line.ordering import SweepSchedule, WindowOp, build_schedule
+from tnarena_sweep_line.ordering import SweepSchedule, WindowOp, build_schedule, layer_ends
 
 #: Directions (degrees) tried when direction = "auto".
 AUTO_DIRECTIONS = (0.0, 90.0, 180.0, 270.0, 45.0, 135.0, 225.0, 315.0)
+
+#: With truncate = 'layer': bonds may grow to this many times chi inside a layer.
+LAYER_SLACK = 2
 
 
 @dataclass
@@ -34,9 +42,12 @@ class SweepPlan:
     """One schedule per connected piece of the network (their logs add)."""
 
     schedules: list[SweepSchedule]
-    steps: list[list[tuple[int, int, int, tuple, tuple, int]]]  # per piece: (lo, hi, node, axes, perm, count)
+    # per piece: (lo, hi, node, axes, perm, count, does a layer end after it)
+    steps: list[list[tuple[int, int, int, tuple, tuple, int, bool]]]
     chi: int
     cutoff: float
+    layout: FoldedLayout
+    cap: int  # most singular values kept while absorbing
 
     @property
     def max_line(self) -> int:
@@ -68,6 +79,8 @@ class SweepLine(Strategy):
                   "sweep direction in degrees, or auto (fewest bonds crossing the line among 8 angles)"),
         Parameter("cutoff", "float", 1e-13, "drop singular values below cutoff x the largest", minimum=0.0,
                   maximum=1.0),
+        Parameter("truncate", "str", "layer", "cut bonds to chi once per layer the line crosses (bonds up to "
+                  "2 chi inside it), or after every node", choices=("layer", "node")),
     )
 
     def resolve(self, given=None):
@@ -77,6 +90,8 @@ class SweepLine(Strategy):
 
     def plan(self, structure: NetworkStructure, params: Mapping[str, Any]) -> SweepPlan:
         angle = parse_direction(params["direction"])
+        layout = fold_small_nodes(structure)
+        structure = layout
         pieces = structure.components()
         angles = AUTO_DIRECTIONS if angle is None else (angle,)
         best = None
@@ -87,19 +102,29 @@ class SweepLine(Strategy):
                 best = (cost, schedules)
         schedules = best[1]
         steps = [[_compile(op, structure) for op in s.ops] for s in schedules]
-        return SweepPlan(schedules, steps, int(params["chi"]), float(params["cutoff"]))
+        chi = int(params["chi"])
+        if params["truncate"] == "layer":
+            ends = [layer_ends(structure, s) for s in schedules]
+            cap = LAYER_SLACK * chi
+        else:
+            ends = [[False] * len(s.ops) for s in schedules]
+            cap = chi
+        steps = [[st + (e,) for st, e in zip(sts, es)] for sts, es in zip(steps, ends)]
+        return SweepPlan(schedules, steps, chi, float(params["cutoff"]), layout, cap)
 
     def contract(self, plan: SweepPlan, network: DecodingNetwork) -> Estimate:
         with one_blas_thread():  # many small SVDs: threads only wait on each other
             return self._contract(plan, network)
 
     def _contract(self, plan: SweepPlan, network: DecodingNetwork) -> Estimate:
-        arrays = network.arrays
+        arrays = plan.layout.arrays(network.arrays)
         log_value, flops, largest, discarded = 0.0, 0.0, 1, 0.0
         for steps in plan.steps:
             mps = LineMPS(plan.chi, plan.cutoff)
-            for lo, hi, node, axes, perm, count in steps:
-                mps.apply(lo, hi, None if node < 0 else arrays[node], axes, perm, count)
+            for lo, hi, node, axes, perm, count, end in steps:
+                mps.apply(lo, hi, None if node < 0 else arrays[node], axes, perm, count, plan.cap)
+                if end:
+                    mps.compress()
                 if mps.log_value == -math.inf:
                     break
             log_value += mps.log_value
@@ -116,7 +141,7 @@ class SweepLine(Strategy):
         return Estimate(log_value, stats)
 
 
-def _compile(op: WindowOp, structure: NetworkStructure) -> tuple:
+def _compile(op: WindowOp, structure: FoldedLayout) -> tuple:
     """tensordot axes and the transpose that put the result in line order."""
     width = op.hi - op.lo
     if op.node < 0:

@@ -52,7 +52,8 @@ class LineMPS:
             self.center -= 1
 
     # ---- the window operation ----------------------------------------------
-    def apply(self, lo: int, hi: int, node: np.ndarray | None, axes: tuple, perm: tuple, count: int) -> None:
+    def apply(self, lo: int, hi: int, node: np.ndarray | None, axes: tuple, perm: tuple, count: int,
+              cap: int | None = None) -> None:
         """Replace sites [lo, hi) by ``count`` new sites.
 
         node : the absorbed node's array, or None; axes : (window axes, node axes)
@@ -73,7 +74,7 @@ class LineMPS:
             block = out
         block = block.transpose(perm)
         self.largest = max(self.largest, block.size)
-        self.sites[lo:hi] = self._split(block, count)
+        self.sites[lo:hi] = self._split(block, count, self.chi if cap is None else cap)
         if count:
             self.center = lo + count - 1
             centre = self.sites[self.center]
@@ -88,7 +89,45 @@ class LineMPS:
         if count:
             self.sites[self.center] = centre / norm
 
-    def _split(self, block: np.ndarray, count: int) -> list[np.ndarray]:
+    def compress(self) -> None:
+        """Cut every bond wider than chi, sweeping the centre across them (QR elsewhere)."""
+        sites = self.sites
+        wide = [i for i in range(len(sites) - 1) if sites[i].shape[2] > self.chi]
+        if not wide:
+            return
+        self._move_center(wide[0], wide[0] + 1)
+        for i in range(wide[0], wide[-1] + 1):
+            a = sites[i]
+            dl, p, dr = a.shape
+            m = a.reshape(dl * p, dr)
+            if dr > self.chi:
+                u, s, vh = np.linalg.svd(m, full_matrices=False)
+                self.flops += m.shape[0] * m.shape[1] * min(m.shape)
+                keep = self._keep(s, self.chi)
+                sites[i] = u[:, :keep].reshape(dl, p, keep)
+                r = s[:keep, None] * vh[:keep]
+            else:
+                q, r = np.linalg.qr(m)
+                sites[i] = q.reshape(dl, p, -1)
+            sites[i + 1] = np.tensordot(r, sites[i + 1], axes=(1, 0))
+        self.center = wide[-1] + 1
+        norm = float(np.linalg.norm(sites[self.center]))
+        if norm == 0.0:
+            self.log_value = -math.inf
+            return
+        self.log_value += math.log(norm)
+        sites[self.center] /= norm
+
+    def _keep(self, s: np.ndarray, cap: int) -> int:
+        """How many singular values ``s`` (descending) survive cutoff and cap; adds the discarded weight."""
+        keep = int(np.count_nonzero(s > self.cutoff * s[0])) if s[0] > 0 else 1
+        keep = max(1, min(keep, cap))
+        total = float(np.dot(s, s))
+        if keep < s.size and total > 0:
+            self.discarded += float(np.dot(s[keep:], s[keep:])) / total
+        return keep
+
+    def _split(self, block: np.ndarray, count: int, cap: int) -> list[np.ndarray]:
         """Cut (D_left, 2, ..., 2, D_right) into ``count`` sites, left to right, truncating."""
         if count == 0:
             return []
@@ -99,11 +138,7 @@ class LineMPS:
             m = rest.reshape(dl * 2, -1)
             u, s, vh = np.linalg.svd(m, full_matrices=False)
             self.flops += m.shape[0] * m.shape[1] * min(m.shape)
-            keep = int(np.count_nonzero(s > self.cutoff * s[0])) if s[0] > 0 else 1
-            keep = max(1, min(keep, self.chi))
-            total = float(np.dot(s, s))
-            if keep < s.size and total > 0:
-                self.discarded += float(np.dot(s[keep:], s[keep:])) / total
+            keep = self._keep(s, cap)
             out.append(u[:, :keep].reshape(dl, 2, keep))
             rest = s[:keep, None] * vh[:keep]
             dl = keep

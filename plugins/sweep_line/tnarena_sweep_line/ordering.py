@@ -172,3 +172,36 @@ def _insertion_index(line, bonds, v, t, s, pos) -> int:
         if crossing > sv:
             return i
     return len(line)
+
+
+def layer_ends(structure, schedule: SweepSchedule, width: float | None = None) -> list[bool]:
+    """For each op of ``schedule``: does a layer of the sweep end after it?
+
+    A layer holds the nodes met while the line advances by ``width`` (position
+    units along the direction; default: the median non-zero length of the
+    bonds projected on the direction, one lattice spacing on regular lattices).
+    The last op always ends a layer.
+    """
+    pos = np.asarray(structure.positions, dtype=float)
+    a = math.radians(schedule.direction)
+    t = pos @ np.array([math.cos(a), math.sin(a)])
+    if width is None:
+        steps = np.abs(t[structure.bonds[:, 0]] - t[structure.bonds[:, 1]]) if len(structure.bonds) else np.zeros(0)
+        steps = steps[steps > TIE]
+        width = float(np.median(steps)) if steps.size else 1.0
+    ends = [False] * len(schedule.ops)
+    start = None
+    last = -1
+    for k, op in enumerate(schedule.ops):
+        if op.node < 0:
+            continue
+        tv = t[op.node]
+        if start is None:
+            start = tv
+        elif tv >= start + width - TIE:
+            ends[last] = True
+            start = tv
+        last = k
+    if ends:
+        ends[-1] = True
+    return ends
