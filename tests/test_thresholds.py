@@ -1,4 +1,4 @@
-"""Thresholds: Wilson rates, crossings, the scaling fit and its bootstrap, chi convergence.
+"""Thresholds: Wilson rates, crossings, the scaling fit and its bootstrap, chi convergence, plots.
 
 Truths (p_c, nu, A, B, C) are set here, and the data drawn from them; crossing
 values are worked out by hand in the docstrings.
@@ -20,6 +20,7 @@ from tnarena.thresholds import (
 )
 from tnarena.thresholds.scaling import standard_errors
 
+PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
 # Truth of the synthetic scaling data (set by the tests, not by the code under test).
 P_C, NU, A, B, C = 0.105, 1.4, 0.25, 1.2, 0.5
 SIZES = np.array([5, 9, 13, 17])
@@ -164,3 +165,16 @@ def test_chi_convergence_flags_each_step():
 def test_chi_convergence_needs_two_chis():
     with pytest.raises(TnarenaError, match="at least 2 distinct chi values"):
         chi_convergence([8], [0.1], [[0.09, 0.11]])
+
+
+# ---- plots ----------------------------------------------------------------------------------------
+def test_plots_write_png_files(tmp_path):
+    """PNG signature (RFC 2083, section 3.1) of the threshold figure and the chi figure."""
+    from tnarena.thresholds.plots import plot_chi_convergence, plot_threshold
+
+    trials = 2000
+    failures = np.random.default_rng(5).binomial(trials, scaling_truth(SIZES, RATES))
+    est = estimate_threshold(SIZES, RATES, failures, trials, resamples=10, seed=1)
+    steps = chi_convergence([4, 8], [0.104, 0.1045], [[0.102, 0.106], [0.1025, 0.1065]])
+    for path in (plot_threshold(est, tmp_path / "thr.png"), plot_chi_convergence(steps, tmp_path / "chi.png")):
+        assert path.read_bytes()[:8] == PNG_SIGNATURE
