@@ -17,7 +17,8 @@ import sqlite3
 import numpy as np
 import pytest
 from scipy.stats import binomtest
-from tnarena.arena.report import export_csv, pareto_front, wilson_interval, write_report
+from tnarena.arena.report import export_csv, pareto_front, write_report
+from tnarena.stats import wilson_interval
 from tnarena.arena.runner import run_study
 from tnarena.arena.store import Store
 from tnarena.arena.study import parse_study

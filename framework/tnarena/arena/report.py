@@ -25,10 +25,9 @@ from tnarena.arena.store import Store
 from tnarena.arena.summary import TASK_COLUMNS, SummaryRow, largest, summarise, summary_cells, task_metrics
 from tnarena.errors import TnarenaError
 
+
 #: Errors below this are drawn at it on log axes (the reference itself has error 0).
 ERROR_FLOOR = 1e-16
-#: Two-sided 95% standard normal quantile, Phi^-1(0.975).
-Z95 = 1.959963984540054
 
 _TABLE_HEAD = ("setting", "ok/tasks", "mean abs ΔlnP", "max abs ΔlnP", "agree", "fail rate", "ms/decode",
                "plan ms", "peak memory", "traced peak")
@@ -50,28 +49,6 @@ def export_csv(store: Store, path: str | Path) -> int:
         for m in metrics:
             writer.writerow([_csv_cell(m[c]) for c in TASK_COLUMNS])
     return len(metrics)
-
-
-def wilson_interval(successes: int, trials: int, z: float = Z95) -> tuple[float, float]:
-    """Wilson score interval of a binomial proportion (E. B. Wilson, JASA 22, 209, 1927).
-
-    Parameters
-    ----------
-    successes, trials : counts, 0 <= successes <= trials, trials >= 1.
-    z : standard normal quantile (default: 95% two-sided).
-
-    Returns
-    -------
-    (low, high) : bounds of the proportion, within [0, 1].
-    """
-    if trials < 1 or not 0 <= successes <= trials:
-        raise ValueError(f"wilson_interval needs 0 <= successes <= trials and trials >= 1, "
-                         f"not {successes} of {trials}.")
-    p = successes / trials
-    shrink = 1.0 + z * z / trials
-    centre = (p + z * z / (2 * trials)) / shrink
-    half = z / shrink * math.sqrt(p * (1 - p) / trials + z * z / (4 * trials * trials))
-    return max(0.0, centre - half), min(1.0, centre + half)
 
 
 def pareto_front(times: Sequence[float], errors: Sequence[float]) -> np.ndarray:

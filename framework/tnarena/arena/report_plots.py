@@ -20,7 +20,8 @@ from matplotlib.figure import Figure
 from matplotlib.patches import Patch
 from matplotlib.ticker import FuncFormatter, LogLocator, NullFormatter
 
-from tnarena.arena.report import ERROR_FLOOR, Group, Marker, pareto_front, wilson_interval
+from tnarena.arena.report import ERROR_FLOOR, Group, Marker, pareto_front
+from tnarena.stats import wilson_interval
 
 DPI = 120
 _MARKERS = "osD^vPX<>hp*"

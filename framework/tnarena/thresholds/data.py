@@ -19,7 +19,7 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import ArrayLike
 
-from tnarena.arena.report import Z95, wilson_interval
+from tnarena.stats import Z95, wilson_interval
 from tnarena.errors import TnarenaError
 
 
