@@ -32,6 +32,18 @@ examples:
 """
 
 
+THRESHOLD_EPILOG = """\
+For every code family, lattice, noise model and setting whose study ran every
+size at every rate (>= 2 sizes, >= 3 rates): a fit of f = A + B x + C x^2 with
+x = (p - p_c) d^(1/nu), bootstrap intervals for p_c and nu, pairwise crossings,
+plots; p_c against chi where settings differ only in chi; failure rates of all
+settings side by side; and H2(p_bit) + H2(p_phase) where a lattice ran both.
+
+example:
+  tnarena threshold studies/square_bit_flip.db --out studies/square_bit_flip-thresholds
+"""
+
+
 def add_commands(sub: argparse._SubParsersAction) -> None:
     raw = argparse.RawDescriptionHelpFormatter
     p = sub.add_parser("run", help="run (or resume) a study file and print its summary table",
@@ -50,6 +62,14 @@ def add_commands(sub: argparse._SubParsersAction) -> None:
     p.add_argument("db", help="database file")
     p.add_argument("--out", default=None, metavar="DIR", help="folder (default: the database name + '-report')")
     p.set_defaults(run=_run_report)
+
+    p = sub.add_parser("threshold", help="threshold estimates (scaling fit, bootstrap) from a study database",
+                       formatter_class=raw, epilog=THRESHOLD_EPILOG)
+    p.add_argument("db", help="database file")
+    p.add_argument("--out", default=None, metavar="DIR", help="folder (default: the database name + '-thresholds')")
+    p.add_argument("--resamples", type=int, default=200, help="bootstrap redraws per estimate (default: 200)")
+    p.add_argument("--seed", type=int, default=0, help="seed of the bootstrap (default: 0)")
+    p.set_defaults(run=_run_threshold)
 
     p = sub.add_parser("export", help="write every task's metrics to CSV")
     p.add_argument("db", help="database file")
@@ -170,6 +190,17 @@ def _run_report(args: argparse.Namespace) -> int:
     store = _open(args.db)
     out = args.out or str(Path(args.db).with_suffix("")) + "-report"
     print(f"report: {write_report(store, out)}")
+    return 0
+
+
+def _run_threshold(args: argparse.Namespace) -> int:
+    from tnarena.arena.threshold_report import write_threshold_report
+
+    if args.resamples < 10:
+        raise TnarenaError(f"--resamples {args.resamples}: give at least 10 bootstrap redraws.")
+    store = _open(args.db)
+    out = args.out or str(Path(args.db).with_suffix("")) + "-thresholds"
+    print(f"thresholds: {write_threshold_report(store, out, resamples=args.resamples, seed=args.seed)}")
     return 0
 
 
