@@ -88,6 +88,32 @@ def _color_666(lattice_builder: LatticeBuilder | None, size: int, seed: int = 0)
     return color_666(_check_size(size, 3))
 
 
+def _own_geometry(name: str, lattice_builder: LatticeBuilder | None) -> None:
+    if lattice_builder is not None:
+        raise TnarenaError(f"the {name} has its own geometry; do not name a lattice for it.")
+
+
+def _rotated_surface(lattice_builder: LatticeBuilder | None, size: int, seed: int = 0) -> PauliCode:
+    from tnarena.codes.rotated import rotated_surface_code
+
+    _own_geometry("rotated surface code", lattice_builder)
+    return rotated_surface_code(_check_size(size, 2))
+
+
+def _xzzx(lattice_builder: LatticeBuilder | None, size: int, seed: int = 0) -> PauliCode:
+    from tnarena.codes.rotated import xzzx_code
+
+    _own_geometry("XZZX surface code", lattice_builder)
+    return xzzx_code(_check_size(size, 2))
+
+
+def _subsystem_surface(lattice_builder: LatticeBuilder | None, size: int, seed: int = 0) -> PauliCode:
+    from tnarena.codes.subsystem import subsystem_surface_code
+
+    _own_geometry("subsystem surface code", lattice_builder)
+    return subsystem_surface_code(_check_size(size, 2))
+
+
 def _check_size(size: int, smallest: int) -> int:
     if isinstance(size, bool) or not isinstance(size, int) or size < smallest:
         raise TnarenaError(f"the code size {size!r} must be a whole number >= {smallest}.")
@@ -99,5 +125,8 @@ CODE_FAMILIES: dict[str, CodeFamily] = {
     for f in (
         CodeFamily("surface", "planar surface code on any lattice (qubits on edges), k = 1, both distances >= size", _surface),
         CodeFamily("color_666", "6.6.6 color code on a triangular patch (size = odd distance)", _color_666),
+        CodeFamily("rotated_surface", "rotated square-lattice surface code, n = size^2, k = 1, both distances = size", _rotated_surface),
+        CodeFamily("xzzx", "rotated XZZX surface code (Hadamard on every other qubit), n = size^2, k = 1, distance = size", _xzzx),
+        CodeFamily("subsystem_surface", "subsystem surface code: weight-3 gauge triangles, weight-6 stabilizers, n = 3 size^2 - 2 size, distance = size", _subsystem_surface),
     )
 }
