@@ -166,3 +166,20 @@ def test_raising_hanging_and_memory_hungry_tasks_are_recorded_and_the_study_goes
     assert any(r == "time limit exceeded (3 s)" for r in reasons)
     assert any(r.startswith("memory limit exceeded (Unable to allocate 2.00 GiB") for r in reasons)
     assert outcome.tasks_failed == sum(m["status"] == "failed" for m in flaky) >= 3
+
+
+def test_matching_baseline_decodes_the_same_instances(catalog, tmp_path):
+    """A baseline stores decisions on the same syndromes as the strategies, and no ln P errors."""
+    data = dict(SMALL, samples=4, codes=[{"family": "surface", "lattices": ["square"], "sizes": [5]}],
+                noise=[{"model": "bit_flip", "rates": [0.08]}], strategies=[{"name": "exact", "params": {"max_repeats": 8}}],
+                baselines=[{"name": "matching"}])
+    store, _ = run(catalog, data, tmp_path / "matching.db")
+    metrics = task_metrics(store)
+    exact = {m["instance"]: m for m in metrics if m["strategy"] == "exact"}
+    matching = [m for m in metrics if m["setting"] == "matching"]
+    assert len(matching) == 4 and all(m["status"] == "ok" and m["abs_errors"] is None for m in matching)
+    for m in matching:
+        assert m["syndrome"] == exact[m["instance"]]["syndrome"]
+        assert m["agrees"] == (m["decision"] == exact[m["instance"]]["decision"])
+    (row,) = [r for r in summarise(metrics) if r.setting == "matching"]
+    assert row.mean_abs_error is None and row.agreement is not None

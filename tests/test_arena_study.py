@@ -115,3 +115,12 @@ def test_compare_runs_without_a_study_file(capsys):
                  "--workers", "1", "--quiet"])
     out = capsys.readouterr().out
     assert code == 0 and "sweep(chi=4)" in out and "reference: exact" in out and "2/2" in out
+
+
+def test_baselines_join_the_settings_and_unknown_ones_are_refused(catalog):
+    study = parse_study(dict(GOOD, baselines=[{"name": "matching"}]), catalog)
+    assert study.settings[-1].label == "matching" and study.settings[-1].kind == "baseline"
+    with pytest.raises(TnarenaError, match=r"baselines\[0\]: baseline decoder 'oracle' is unknown; known: matching"):
+        parse_study(dict(GOOD, baselines=[{"name": "oracle"}]), catalog)
+    with pytest.raises(TnarenaError, match=r"baselines\[0\]: unknown key 'chi'"):
+        parse_study(dict(GOOD, baselines=[{"name": "matching", "chi": 4}]), catalog)

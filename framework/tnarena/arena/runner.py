@@ -142,7 +142,8 @@ def prepare_points(study: Study, store: Store, catalog: Catalog, progress: TextI
 
 def _setting_rows(study: Study, catalog: Catalog) -> list[dict]:
     return [{"key": s.key, "label": s.label, "strategy": s.strategy, "params": json.dumps(dict(s.params)),
-             "exact": int(catalog.strategy(s.strategy).exact), "compared": int(s in study.settings),
+             "exact": int(s.kind == "strategy" and catalog.strategy(s.strategy).exact),
+             "compared": int(s in study.settings),
              "reference": int(s == study.reference), "fallback": int(s == study.fallback)}
             for s in study.all_settings]
 

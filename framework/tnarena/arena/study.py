@@ -18,10 +18,12 @@ from tnarena.errors import TnarenaError
 
 #: Keys of the top level and of each table, with the type each takes.
 _TOP = {"title": str, "seed": int, "samples": int, "time_limit": (int, float), "memory_limit": (int, float),
-        "trace_memory": int, "codes": list, "noise": list, "strategies": list, "reference": dict}
+        "trace_memory": int, "codes": list, "noise": list, "strategies": list, "baselines": list,
+        "reference": dict}
 _CODE = {"family": str, "lattices": list, "sizes": list}
 _NOISE = {"model": str, "rates": list, "options": dict}
 _STRATEGY = {"name": str, "params": dict, "grid": dict}
+_BASELINE = {"name": str}
 _REFERENCE = {"strategy": str, "params": dict, "fallback": dict}
 _FALLBACK = {"strategy": str, "params": dict}
 _REQUIRED = ("seed", "samples", "codes", "noise", "strategies")
@@ -62,14 +64,20 @@ class Point:
 
 @dataclass(frozen=True)
 class Setting:
-    """A strategy with the parameters the study gives it (the rest at their defaults)."""
+    """A strategy with the parameters the study gives it (the rest at their defaults).
+
+    kind 'strategy' : a contraction strategy (class probabilities); 'baseline' : a
+    decoder of :mod:`tnarena.baselines` (a decision only).
+    """
 
     strategy: str
     params: tuple[tuple[str, Any], ...] = ()
+    kind: str = "strategy"
 
     @property
     def key(self) -> str:
-        return json.dumps({"strategy": self.strategy, "params": dict(self.params)}, sort_keys=True)
+        base = {"strategy": self.strategy, "params": dict(self.params)}
+        return json.dumps(base if self.kind == "strategy" else {**base, "kind": self.kind}, sort_keys=True)
 
     @property
     def label(self) -> str:
@@ -159,6 +167,10 @@ def parse_study(data: dict[str, Any], catalog: Catalog, *, where: str = "the stu
             if s in settings:
                 raise TnarenaError(f"{where}: strategies[{i}] repeats the setting {s.label}; give each once.")
             settings.append(s)
+    for i, entry in enumerate(data.get("baselines", [])):
+        settings.append(_baseline(entry, f"{where}: baselines[{i}]"))
+    if len(set(settings)) != len(settings):
+        raise TnarenaError(f"{where}: baselines repeats a decoder; give each once.")
     reference, fallback = _reference(data.get("reference", {}), settings, catalog, f"{where}: reference")
     return Study(title=data.get("title", "untitled study"), seed=seed, samples=samples, points=points,
                  settings=settings, reference=reference, fallback=fallback, time_limit=time_limit,
@@ -264,6 +276,21 @@ def _settings(entry: dict[str, Any], catalog: Catalog, where: str) -> list[Setti
     return out
 
 
+def _baseline(entry: Any, where: str) -> Setting:
+    from tnarena.baselines import baseline
+
+    if not isinstance(entry, dict):
+        raise TnarenaError(f"{where} must be a table ([[baselines]] with name = ...), not {entry!r}.")
+    _check_keys(entry, _BASELINE, where)
+    if "name" not in entry:
+        raise TnarenaError(f"{where}: give the baseline's name (e.g. name = \"matching\").")
+    try:
+        baseline(entry["name"])
+    except TnarenaError as exc:
+        raise TnarenaError(f"{where}: {exc}") from None
+    return Setting(entry["name"], (), kind="baseline")
+
+
 def _reference(entry: dict[str, Any], settings: list[Setting], catalog: Catalog,
                where: str) -> tuple[Setting, Setting | None]:
     """The reference (default: exact) and its fallback (default: the setting of largest chi)."""
@@ -275,7 +302,7 @@ def _reference(entry: dict[str, Any], settings: list[Setting], catalog: Catalog,
             raise TnarenaError(f"{where}.fallback: give the fallback's strategy.")
         return reference, _one_setting(entry["fallback"]["strategy"], entry["fallback"].get("params", {}),
                                        catalog, f"{where}.fallback")
-    with_chi = [s for s in settings if "chi" in dict(s.params)]
+    with_chi = [s for s in settings if "chi" in dict(s.params) and s.kind == "strategy"]
     fallback = max(with_chi, key=lambda s: dict(s.params)["chi"]) if with_chi else None
     return reference, fallback
 

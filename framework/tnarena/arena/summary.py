@@ -84,8 +84,11 @@ def _references(rows) -> dict[int, tuple[int, bool]]:
     return out
 
 
-def _abs_errors(row, ref) -> list[float]:
+def _abs_errors(row, ref) -> list[float] | None:
+    """|ln P - ln P_ref| per class the reference finds possible; None for a baseline (no ln P)."""
     mine, theirs = _json(row["log_probs"]), _json(ref["log_probs"])
+    if mine is None or theirs is None:
+        return None
     out = []
     for a, b in zip(mine, theirs):
         if b is None:
@@ -134,15 +137,16 @@ def summarise(metrics: list[dict[str, Any]]) -> list[SummaryRow]:
     out = []
     for (point, setting), ms in groups.items():
         ok = [m for m in ms if m["status"] == "ok"]
-        errors = [e for m in ok if m["abs_errors"] for e in m["abs_errors"]]
+        measured = [m["abs_errors"] for m in ok if m["abs_errors"] is not None]  # none for baselines
+        errors = [e for errs in measured for e in errs]
         agrees = [m["agrees"] for m in ok if m["agrees"] is not None]
         first = ms[0]
         out.append(SummaryRow(
             point=point, lattice=first["lattice"], size=first["size"], n=first["n"], model=first["model"],
             rate=first["rate"], setting=setting, strategy=first["strategy"], tasks=len(ms),
             failed=len(ms) - len(ok),
-            mean_abs_error=float(np.mean(errors)) if errors else (0.0 if agrees else None),
-            max_abs_error=float(np.max(errors)) if errors else (0.0 if agrees else None),
+            mean_abs_error=float(np.mean(errors)) if errors else (0.0 if measured else None),
+            max_abs_error=float(np.max(errors)) if errors else (0.0 if measured else None),
             agreement=float(np.mean(agrees)) if agrees else None,
             logical_failure_rate=float(np.mean([m["logical_failure"] for m in ok])) if ok else None,
             median_contract_ms=1e3 * float(np.median([m["contract_seconds"] for m in ok])) if ok else None,

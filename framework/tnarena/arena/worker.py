@@ -24,6 +24,7 @@ import numpy as np
 
 from tnarena.arena.seeds import instance_rng, integer_seed
 from tnarena.arena.study import Point, Setting
+from tnarena.baselines import baseline
 from tnarena.catalog import Catalog
 from tnarena.decode import Decoder, class_label
 from tnarena.errors import PluginError, TnarenaError
@@ -96,7 +97,8 @@ class TaskRunner:
         except Exception as exc:  # noqa: BLE001 - a broken strategy must not stop the study
             return failed_row(f"{type(exc).__name__} while planning: {exc}")
         if chunk.kind == "plan":
-            return {"status": "ok", "plan": _pickled(decoder.plan), "plan_seconds": plan_seconds,
+            plan = getattr(decoder, "plan", None)
+            return {"status": "ok", "plan": None if plan is None else _pickled(plan), "plan_seconds": plan_seconds,
                     "worker": os.getpid()}
         try:
             return self._decode(chunk, decoder, unit, plan_seconds)
@@ -115,6 +117,11 @@ class TaskRunner:
                 raise cached
             return cached, 0.0
         code, table = self._code(chunk)
+        if chunk.setting.kind == "baseline":  # built in each worker (no plan to share)
+            start = time.perf_counter()
+            decoder = baseline(chunk.setting.strategy).build(code, table)
+            self._remember(key, decoder)
+            return decoder, time.perf_counter() - start
         strategy = self.catalog.strategy(chunk.setting.strategy)
         given = None if chunk.plan is None else pickle.loads(chunk.plan)
         try:
@@ -142,6 +149,11 @@ class TaskRunner:
         start = time.perf_counter()
         result = decoder.decode_error(error)
         decode_seconds = time.perf_counter() - start
+        if chunk.setting.kind == "baseline":
+            return {"status": "ok", "syndrome": syndrome_hex(result.syndrome), "decision": class_label(result.decision),
+                    "true_class": class_label(result.true_class), "logical_failure": int(bool(result.failed)),
+                    "contract_seconds": decode_seconds, "decode_seconds": decode_seconds,
+                    "plan_seconds": plan_seconds, "worker": os.getpid()}
         stats = [c.stats for c in result.classes]
         row = {
             "status": "ok",
