@@ -20,7 +20,7 @@ import numpy as np
 from tnarena.arena.store import Store
 
 #: Columns of :func:`task_metrics` rows, in export order.
-TASK_COLUMNS = ("point", "family", "lattice", "size", "n", "model", "rate", "options", "setting", "strategy",
+TASK_COLUMNS = ("point", "family", "lattice", "size", "n", "distances", "model", "rate", "options", "setting", "strategy",
                 "params", "instance", "status", "reason", "syndrome", "reference", "approximate_reference", "classes",
                 "log_probs", "abs_errors", "mean_abs_error", "decision", "reference_decision", "agrees",
                 "true_class", "logical_failure", "contract_seconds", "decode_seconds", "plan_seconds",
@@ -31,7 +31,7 @@ TASK_COLUMNS = ("point", "family", "lattice", "size", "n", "model", "rate", "opt
 def task_metrics(store: Store) -> list[dict[str, Any]]:
     """One dict per stored task (columns :data:`TASK_COLUMNS`), errors against the reference."""
     rows = store.rows(
-        "SELECT r.*, p.label AS point, p.family, p.lattice, p.size, p.n, p.model, p.rate, p.options, "
+        "SELECT r.*, p.label AS point, p.family, p.lattice, p.size, p.n, p.distances, p.model, p.rate, p.options, "
         "s.label AS setting, s.strategy, s.params, s.reference AS is_reference, s.fallback AS is_fallback, "
         "pl.seconds AS shared_plan_seconds "
         "FROM results r JOIN points p ON p.id = r.point_id JOIN settings s ON s.id = r.setting_id "
@@ -49,6 +49,7 @@ def task_metrics(store: Store) -> list[dict[str, Any]]:
         label = labels.get(ref_sid)
         out.append({
             "point": r["point"], "family": r["family"], "lattice": r["lattice"], "size": r["size"], "n": r["n"],
+            "distances": r["distances"],
             "model": r["model"], "rate": r["rate"], "options": r["options"], "setting": r["setting"],
             "strategy": r["strategy"], "params": r["params"], "instance": r["instance"], "status": r["status"],
             "reason": r["reason"], "syndrome": r["syndrome"], "reference": label, "approximate_reference": bool(approximate),
@@ -127,6 +128,7 @@ class SummaryRow:
     reference: str | None
     approximate_reference: bool
     failure_reasons: tuple[str, ...] = ()
+    distances: str = ""  # e.g. 'd_x = 7, d_z = 9' as the code reports them
 
 
 def summarise(metrics: list[dict[str, Any]]) -> list[SummaryRow]:
@@ -157,6 +159,7 @@ def summarise(metrics: list[dict[str, Any]]) -> list[SummaryRow]:
             mean_flops=_mean(m["flops"] for m in ok),
             reference=first["reference"], approximate_reference=first["approximate_reference"],
             failure_reasons=tuple(sorted({m["reason"] for m in ms if m["status"] != "ok"})),
+            distances=_distances(first["distances"]),
         ))
     return out
 
@@ -165,6 +168,12 @@ def largest(values) -> float | None:
     """The largest of the values that are not None (None when there are none)."""
     vals = [v for v in values if v is not None]
     return float(max(vals)) if vals else None
+
+
+def _distances(text: str | None) -> str:
+    """'{"x": 7, "z": 9}' -> 'd_x = 7, d_z = 9'."""
+    found = _json(text) or {}
+    return ", ".join(f"d_{k} = {v}" for k, v in sorted(found.items()))
 
 
 def _mean(values) -> float | None:
@@ -194,7 +203,8 @@ def format_summary(rows: list[SummaryRow]) -> str:
             current = r.point
             ref = r.reference or "none"
             flag = "  (APPROXIMATE reference: the reference failed here)" if r.approximate_reference else ""
-            lines += ["", f"{r.point}  n = {r.n}  reference: {ref}{flag}", _line(SUMMARY_HEADERS)]
+            dist = f", {r.distances}" if r.distances else ""
+            lines += ["", f"{r.point}  n = {r.n}{dist}  reference: {ref}{flag}", _line(SUMMARY_HEADERS)]
         lines.append(_line(summary_cells(r)))
         for reason in r.failure_reasons:
             lines.append(f"      failed: {reason}")
