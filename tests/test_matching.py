@@ -7,7 +7,6 @@ from pathlib import Path
 import networkx as nx
 import numpy as np
 import pytest
-
 from tnarena.codes.core import STABILIZER, PauliCode
 from tnarena.codes.json_format import read_code_json
 from tnarena.decode import Decoder
