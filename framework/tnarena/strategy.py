@@ -112,6 +112,18 @@ class Strategy(abc.ABC):
     def contract(self, plan: Any, network: DecodingNetwork) -> Estimate:
         """Contract one network's arrays with a plan made for its structure."""
 
+    def cost(self, structure: NetworkStructure, params: Mapping[str, Any]) -> dict[str, float] | None:
+        """What contracting this structure with these params would cost, from the structure alone.
+
+        Optional (the default returns None: no estimate). Must be cheap: no
+        contraction, well under a second at size 15. params holds every
+        declared parameter, validated. Keys are the strategy's own figures
+        (e.g. ``width``, ``flops``, ``largest_intermediate`` in elements,
+        ``columns``, ``largest_column``); the automatic chooser
+        (:mod:`tnarena.chooser`) shows them and ranks directions by them.
+        """
+        return None
+
     def resolve(self, given: Mapping[str, Any] | None = None) -> dict[str, Any]:
         """Every declared parameter: the given values validated, the rest at their defaults."""
         given = dict(given or {})

@@ -27,7 +27,7 @@ from tnarena.strategy import Estimate, Parameter, Strategy
 from tnarena_boundary_columns.cells import coarse_grain
 from tnarena_boundary_columns.geometry import DIRECTIONS
 from tnarena_boundary_columns.mps import BoundaryMPS
-from tnarena_boundary_columns.cost import plan_cheapest
+from tnarena_boundary_columns.cost import cheapest_estimate, plan_cheapest
 from tnarena_boundary_columns.schedule import PiecePlan
 
 
@@ -75,6 +75,21 @@ class ColumnBoundaryMPS(Strategy):
             for piece in structure.components()
         )
         return ColumnsPlan(pieces, int(params["chi"]), float(params["cutoff"]), direction)
+
+    def cost(self, structure: NetworkStructure, params: Mapping[str, Any]) -> dict[str, float]:
+        """Columns, largest column (most boundary-MPS sites) and estimated flops at chi, from shapes alone.
+
+        Each piece's cut is the one with the smallest :func:`estimate_flops` (no probe
+        contraction, so it may differ from the cut :meth:`plan` keeps). Raises
+        TnarenaError where every cut breaks ``max_cell``.
+        """
+        columns, sites, flops = 0, 0, 0.0
+        for piece in structure.components():
+            best = cheapest_estimate(structure, piece, int(params["direction"]), float(params["width"]),
+                                     int(params["max_cell"]), int(params["chi"]))
+            columns, sites = max(columns, len(best[1].columns)), max(sites, best[1].max_sites)
+            flops += best[0]
+        return {"columns": float(columns), "largest_column": float(sites), "flops_estimate": flops}
 
     def contract(self, plan: ColumnsPlan, network: DecodingNetwork) -> Estimate:
         with one_blas_thread():  # many small SVDs: threads only wait on each other

@@ -113,13 +113,10 @@ def probe_flops(piece: PiecePlan, structure: NetworkStructure, chi: int, cutoff:
     return flops + mps.flops
 
 
-def plan_cheapest(structure: NetworkStructure, nodes: list[int], direction: int, width: float,
-                  max_cell: int, chi: int, cutoff: float) -> PiecePlan:
-    """The schedule of the cheapest candidate cut of one piece (see ``candidate_grids``).
+def candidate_pieces(structure: NetworkStructure, nodes: list[int], direction: int, width: float,
+                     max_cell: int) -> list[PiecePlan]:
+    """Schedules of every candidate cut of one piece that keeps within max_cell.
 
-    Candidates are screened by :func:`estimate_flops` (kept within SCREEN times
-    the best) and, when the survivors' estimates differ by more than CLOSE,
-    ranked by :func:`probe_flops`.
     Raises the first candidate's TnarenaError when every candidate breaks max_cell.
     """
     pieces, refusal = [], None
@@ -130,6 +127,28 @@ def plan_cheapest(structure: NetworkStructure, nodes: list[int], direction: int,
             refusal = refusal or err
     if not pieces:
         raise refusal
+    return pieces
+
+
+def cheapest_estimate(structure: NetworkStructure, nodes: list[int], direction: int, width: float,
+                      max_cell: int, chi: int) -> tuple[float, PiecePlan]:
+    """(estimated flops, schedule) of the candidate cut with the smallest :func:`estimate_flops`."""
+    pieces = candidate_pieces(structure, nodes, direction, width, max_cell)
+    estimates = [estimate_flops(p, chi) for p in pieces]
+    best = int(np.argmin(estimates))
+    return estimates[best], pieces[best]
+
+
+def plan_cheapest(structure: NetworkStructure, nodes: list[int], direction: int, width: float,
+                  max_cell: int, chi: int, cutoff: float) -> PiecePlan:
+    """The schedule of the cheapest candidate cut of one piece (see ``candidate_grids``).
+
+    Candidates are screened by :func:`estimate_flops` (kept within SCREEN times
+    the best) and, when the survivors' estimates differ by more than CLOSE,
+    ranked by :func:`probe_flops`.
+    Raises the first candidate's TnarenaError when every candidate breaks max_cell.
+    """
+    pieces = candidate_pieces(structure, nodes, direction, width, max_cell)
     estimates = [estimate_flops(p, chi) for p in pieces]
     best = min(estimates)
     kept = [(e, p) for p, e in zip(pieces, estimates) if e <= SCREEN * best]

@@ -116,6 +116,21 @@ class ExactTree(Strategy):
             method=method,
         )
 
+    def cost(self, structure: NetworkStructure, params: Mapping[str, Any]) -> dict[str, float]:
+        """Width (log2 elements), flops and largest intermediate (elements) of one greedy tree.
+
+        No search: an upper bound on what :meth:`plan` finds (it keeps greedy as a floor).
+        """
+        import cotengra as ctg
+
+        inputs, _ = structure.hyperedges()
+        if not inputs:
+            return {"width": 0.0, "flops": 0.0, "largest_intermediate": 1.0}
+        size_dict = {g: 2 for term in inputs for g in term}
+        tree = ctg.array_contract_tree(inputs, (), size_dict, optimize="greedy")
+        return {"width": float(tree.contraction_width()), "flops": float(tree.contraction_cost()),
+                "largest_intermediate": float(tree.max_size())}
+
     def contract(self, plan: ExactPlan, network: DecodingNetwork) -> Estimate:
         stats = {
             "flops": plan.flops,
