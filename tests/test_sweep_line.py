@@ -44,14 +44,43 @@ def test_sweep_at_large_chi_equals_exact_on_every_lattice(catalog, lattice):
             assert got == pytest.approx(want, rel=1e-10), (name, cls)
 
 
+@pytest.mark.parametrize("sides", [1, 2])
 @pytest.mark.parametrize("lattice", ["square", "delaunay"])
-def test_truncating_after_every_node_equals_exact_at_large_chi(catalog, lattice):
+def test_truncating_after_every_node_equals_exact_at_large_chi(catalog, lattice, sides):
     """truncate = 'node' (no layers) also equals the exact strategy to 1e-10 relative at chi = 64."""
     code = catalog.build_code("surface", lattice, 3, seed=4)
     table = make_noise("depolarizing", code.n, 0.12)
     builder = NetworkBuilder(code, table)
-    (ex, pe), (sw, ps) = _pair(catalog, builder.structure, truncate="node")
+    (ex, pe), (sw, ps) = _pair(catalog, builder.structure, truncate="node", sides=sides)
     network = builder.network(sample_errors(table, np.random.default_rng(3)))
+    assert sw.contract(ps, network).log_value == pytest.approx(ex.contract(pe, network).log_value, rel=1e-10)
+
+
+@pytest.mark.parametrize("lattice", ["square", "hexagonal", "delaunay"])
+@pytest.mark.parametrize("direction", ["0", "45", "90", "135", "180", "225", "270", "315"])
+def test_two_sided_sweep_at_large_chi_equals_exact(catalog, lattice, direction):
+    """sides = 2 (a line from each end, joined exactly at the middle cut) equals the exact strategy to 1e-10
+    relative at chi = 64, in every candidate direction (high-degree folded nodes whose incoming bonds must
+    be gathered from far apart on the line, on the Delaunay layout)."""
+    code = catalog.build_code("surface", lattice, 5, seed=1)
+    table = make_noise("depolarizing", code.n, 0.12)
+    builder = NetworkBuilder(code, table)
+    (ex, pe), (sw, ps) = _pair(catalog, builder.structure, direction=direction, sides=2)
+    assert [len(group) for group in ps.schedules] == [2]
+    network = builder.network(sample_errors(table, np.random.default_rng(5)))
+    assert sw.contract(ps, network).log_value == pytest.approx(ex.contract(pe, network).log_value, rel=1e-10)
+
+
+@pytest.mark.parametrize("sides", [1, 2])
+def test_disconnected_pieces_add_their_logs(catalog, sides):
+    """Independent X/Z noise splits the network of a CSS code in two pieces (X and Z generators); the sweep
+    contracts each (from one or both ends) and their logs add up to the exact value."""
+    code = catalog.build_code("surface", "square", 5)
+    table = make_noise("independent_xz", code.n, 0.1, z_rate=0.05)
+    builder = NetworkBuilder(code, table)
+    (ex, pe), (sw, ps) = _pair(catalog, builder.structure, sides=sides)
+    assert [len(group) for group in ps.schedules] == [sides, sides]
+    network = builder.network(sample_errors(table, np.random.default_rng(2)), (1, 0))
     assert sw.contract(ps, network).log_value == pytest.approx(ex.contract(pe, network).log_value, rel=1e-10)
 
 
@@ -117,7 +146,9 @@ def test_ising_free_energy_matches_onsager(catalog, beta):
     ({"direction": "north"}, "takes an angle in degrees or 'auto', not 'north'"),
     ({"cutoff": -1.0}, "parameter 'cutoff' = -1.0 is outside its range"),
     ({"truncate": "row"}, "parameter 'truncate' must be one of layer, node, not 'row'"),
-    ({"bond": 3}, "has no parameter 'bond'; its parameters are: chi, direction, cutoff, truncate"),
+    ({"sides": 3}, "parameter 'sides' must be one of 1, 2, not 3"),
+    ({"sides": "both"}, "parameter 'sides' takes one of 1, 2, not 'both'"),
+    ({"bond": 3}, "has no parameter 'bond'; its parameters are: chi, direction, cutoff, truncate, sides"),
 ])
 def test_bad_parameters_are_refused(catalog, params, message):
     with pytest.raises(TnarenaError, match=message):

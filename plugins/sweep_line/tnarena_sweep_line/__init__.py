@@ -27,8 +27,9 @@ from tnarena.network import DecodingNetwork, NetworkStructure
 from tnarena.strategy import Estimate, Parameter, Strategy
 
 from tnarena_sweep_line.merge import FoldedLayout, fold_small_nodes
-from tnarena_sweep_line.mps import LineMPS
-from tnarena_sweep_line.ordering import SweepSchedule, WindowOp, build_schedule, layer_ends
+from tnarena_sweep_line.mps import LineMPS, Step, log_overlap
+from tnarena_sweep_line.ordering import (SweepSchedule, WindowOp, build_schedule, layer_ends, reorder_line,
+                                         split_at_middle)
 
 #: Directions (degrees) tried when direction = "auto".
 AUTO_DIRECTIONS = (0.0, 90.0, 180.0, 270.0, 45.0, 135.0, 225.0, 315.0)
@@ -39,11 +40,10 @@ LAYER_SLACK = 2
 
 @dataclass
 class SweepPlan:
-    """One schedule per connected piece of the network (their logs add)."""
+    """Per connected piece of the network (their logs add): one schedule, or two that meet at a cut."""
 
-    schedules: list[SweepSchedule]
-    # per piece: (lo, hi, node, axes, perm, count, does a layer end after it)
-    steps: list[list[tuple[int, int, int, tuple, tuple, int, bool]]]
+    schedules: list[tuple[SweepSchedule, ...]]
+    steps: list[tuple[list[Step], ...]]  # per piece, per side
     chi: int
     cutoff: float
     layout: FoldedLayout
@@ -51,7 +51,7 @@ class SweepPlan:
 
     @property
     def max_line(self) -> int:
-        return max((s.max_line for s in self.schedules), default=0)
+        return max((s.max_line for sides in self.schedules for s in sides), default=0)
 
 
 def parse_direction(value: Any) -> float | None:
@@ -81,6 +81,8 @@ class SweepLine(Strategy):
                   maximum=1.0),
         Parameter("truncate", "str", "layer", "cut bonds to chi once per layer the line crosses (bonds up to "
                   "2 chi inside it), or after every node", choices=("layer", "node")),
+        Parameter("sides", "int", 2, "sweep from one end (1), or from both ends to a middle cut where the two "
+                  "lines are joined exactly (2)", choices=(1, 2)),
     )
 
     def resolve(self, given=None):
@@ -91,25 +93,28 @@ class SweepLine(Strategy):
     def plan(self, structure: NetworkStructure, params: Mapping[str, Any]) -> SweepPlan:
         angle = parse_direction(params["direction"])
         layout = fold_small_nodes(structure)
-        structure = layout
-        pieces = structure.components()
-        angles = AUTO_DIRECTIONS if angle is None else (angle,)
+        pieces = layout.components()
+        sides = int(params["sides"])
         best = None
-        for a in angles:
-            schedules = [build_schedule(structure, a, piece) for piece in pieces]
-            cost = (max((s.max_line for s in schedules), default=0), sum(s.swaps for s in schedules))
+        for a in AUTO_DIRECTIONS if angle is None else (angle,):
+            schedules = [_piece_schedules(layout, a, piece, sides) for piece in pieces]
+            flat = [s for group in schedules for s in group]
+            cost = (max((s.max_line for s in flat), default=0), sum(s.swaps for s in flat))
             if best is None or cost < best[0]:
                 best = (cost, schedules)
         schedules = best[1]
-        steps = [[_compile(op, structure) for op in s.ops] for s in schedules]
         chi = int(params["chi"])
-        if params["truncate"] == "layer":
-            ends = [layer_ends(structure, s) for s in schedules]
-            cap = LAYER_SLACK * chi
-        else:
-            ends = [[False] * len(s.ops) for s in schedules]
-            cap = chi
-        steps = [[st + (e,) for st, e in zip(sts, es)] for sts, es in zip(steps, ends)]
+        layered = params["truncate"] == "layer"
+        steps = []
+        for group in schedules:
+            per_side = []
+            for sched in group:
+                ends = layer_ends(layout, sched) if layered else [False] * len(sched.ops)
+                if len(group) == 2 and ends:
+                    ends[-1] = False  # the two lines are joined exactly, wide bonds and all
+                per_side.append([_compile(op, layout, e) for op, e in zip(sched.ops, ends)])
+            steps.append(tuple(per_side))
+        cap = LAYER_SLACK * chi if layered else chi
         return SweepPlan(schedules, steps, chi, float(params["cutoff"]), layout, cap)
 
     def contract(self, plan: SweepPlan, network: DecodingNetwork) -> Estimate:
@@ -119,34 +124,61 @@ class SweepLine(Strategy):
     def _contract(self, plan: SweepPlan, network: DecodingNetwork) -> Estimate:
         arrays = plan.layout.arrays(network.arrays)
         log_value, flops, largest, discarded = 0.0, 0.0, 1, 0.0
-        for steps in plan.steps:
-            mps = LineMPS(plan.chi, plan.cutoff)
-            for lo, hi, node, axes, perm, count, end in steps:
-                mps.apply(lo, hi, None if node < 0 else arrays[node], axes, perm, count, plan.cap)
-                if end:
-                    mps.compress()
-                if mps.log_value == -math.inf:
-                    break
-            log_value += mps.log_value
-            flops += mps.flops
-            largest = max(largest, mps.largest)
-            discarded += mps.discarded
+        for per_side in plan.steps:
+            lines = [_run(steps, arrays, plan) for steps in per_side]
+            piece = lines[0].log_value if len(lines) == 1 else log_overlap(*lines)
+            log_value += piece
+            for mps in lines:
+                flops += mps.flops
+                largest = max(largest, mps.largest)
+                discarded += mps.discarded
+            if piece == -math.inf:
+                break
+        first = plan.schedules[0][0] if plan.schedules else None
         stats = {
             "flops": flops,
             "largest_intermediate": float(largest),
             "discarded_weight": discarded,
             "max_line": float(plan.max_line),
-            "direction": plan.schedules[0].direction if plan.schedules else 0.0,
+            "direction": first.direction if first else 0.0,
+            "sides": float(max((len(g) for g in plan.schedules), default=1)),
         }
         return Estimate(log_value, stats)
 
 
-def _compile(op: WindowOp, structure: FoldedLayout) -> tuple:
-    """tensordot axes and the transpose that put the result in line order."""
+def _run(steps: list[Step], arrays: list, plan: SweepPlan) -> LineMPS:
+    """Replay one schedule on the arrays; the line it leaves (a scalar after a whole piece)."""
+    mps = LineMPS(plan.chi, plan.cutoff)
+    cap = plan.cap
+    for step in steps:
+        mps.apply(step, None if step.node < 0 else arrays[step.node], cap)
+        if step.end:
+            mps.compress()
+        if mps.log_value == -math.inf:
+            break
+    return mps
+
+
+def _piece_schedules(layout: FoldedLayout, angle: float, piece: list[int], sides: int) -> tuple[SweepSchedule, ...]:
+    """One sweep over ``piece`` at ``angle``; with sides = 2, a sweep from each end stopping at the
+    middle cut (the second line reordered to run opposite the first), when the piece spans two layers."""
+    if sides == 2:
+        near, far = split_at_middle(layout, angle, piece)
+        if near and far:
+            one = build_schedule(layout, angle, near)
+            two = build_schedule(layout, (angle + 180.0) % 360.0, far)
+            reorder_line(two, one.line[::-1])
+            return one, two
+    return (build_schedule(layout, angle, piece),)
+
+
+def _compile(op: WindowOp, structure: FoldedLayout, end: bool) -> Step:
+    """The fast-path node permutation, or tensordot axes and the transpose into line order."""
     width = op.hi - op.lo
+    count = len(op.output)
     if op.node < 0:
         perm = (0,) + tuple(1 + off for _, off in op.output) + (width + 1,)
-        return (op.lo, op.hi, -1, ((), ()), perm, len(op.output))
+        return Step(op.lo, op.hi, count, -1, None, ((), ()), perm, end)
     degree = structure.degree(op.node)
     if width == 0:
         w_axes, n_axes = (), ()
@@ -155,12 +187,15 @@ def _compile(op: WindowOp, structure: FoldedLayout) -> tuple:
         w_axes = tuple(1 + off for off, _ in op.contract)
         n_axes = tuple(axis for _, axis in op.contract)
         kept = [off for off in range(width) if off not in {o for o, _ in op.contract}]
+    node_perm = None
+    if width and not kept:
+        node_perm = tuple(axis for _, axis in op.output) + n_axes
     free = [a for a in range(degree) if a not in set(n_axes)]
     n_left = 1 + len(kept)  # D_left and kept legs
     where = {("w", off): 1 + i for i, off in enumerate(kept)}
     where.update({("n", a): n_left + 1 + i for i, a in enumerate(free)})
     perm = (0,) + tuple(where[tuple(leg)] for leg in op.output) + (n_left,)
-    return (op.lo, op.hi, op.node, (w_axes, n_axes), perm, len(op.output))
+    return Step(op.lo, op.hi, count, op.node, node_perm, (w_axes, n_axes), perm, end)
 
 
 @tnarena.hookimpl

@@ -5,13 +5,44 @@ line. The MPS is kept in mixed canonical form: sites left of ``center`` are
 left-orthogonal, sites right of it right-orthogonal, so truncating the SVD of
 a window that holds the centre is the best local truncation. The centre is
 normalised after every operation and the logarithm of its norm carried.
+
+Hot paths use matrix products on reshaped arrays and LAPACK directly
+(:mod:`tnarena_sweep_line.linalg`); a window whose new bonds fit the cap is
+split by QR (exact), only wider ones by a truncated SVD.
 """
 
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 
 import numpy as np
+
+from tnarena_sweep_line.linalg import lq, qr, svd
+
+
+@dataclass(frozen=True, slots=True)
+class Step:
+    """One compiled window operation (see :class:`tnarena_sweep_line.ordering.WindowOp`).
+
+    lo, hi : the sites [lo, hi) replaced; count : sites that replace them
+    node : array index absorbed, -1 for a swap of two sites
+    node_perm : for the fast path (every window leg summed against the node),
+        the node's axes as (free, in line order) + (summed, in window order);
+        None otherwise
+    axes, perm : the general path, np.tensordot axes and the transpose into
+        (D_left, new legs..., D_right)
+    end : a layer ends after this step (cut wide bonds to chi)
+    """
+
+    lo: int
+    hi: int
+    count: int
+    node: int
+    node_perm: tuple[int, ...] | None
+    axes: tuple
+    perm: tuple[int, ...]
+    end: bool
 
 
 class LineMPS:
@@ -33,52 +64,60 @@ class LineMPS:
 
     # ---- canonical form ----------------------------------------------------
     def _move_center(self, lo: int, hi: int) -> None:
+        """QR the centre rightwards to ``lo`` or LQ it leftwards to ``hi - 1``."""
         sites = self.sites
         while self.center < lo:
             a = sites[self.center]
             dl, p, dr = a.shape
-            q, r = np.linalg.qr(a.reshape(dl * p, dr))
+            q, r = qr(a.reshape(dl * p, dr))
             sites[self.center] = q.reshape(dl, p, -1)
-            sites[self.center + 1] = np.tensordot(r, sites[self.center + 1], axes=(1, 0))
+            b = sites[self.center + 1]
+            sites[self.center + 1] = (r @ b.reshape(dr, -1)).reshape(r.shape[0], b.shape[1], b.shape[2])
             self.flops += dl * p * dr * dr
             self.center += 1
         while self.center >= hi:
             a = sites[self.center]
             dl, p, dr = a.shape
-            q, r = np.linalg.qr(a.reshape(dl, p * dr).T)
-            sites[self.center] = q.T.reshape(-1, p, dr)
-            sites[self.center - 1] = np.tensordot(sites[self.center - 1], r.T, axes=(2, 0))
+            l, q = lq(a.reshape(dl, p * dr))
+            sites[self.center] = q.reshape(-1, p, dr)
+            b = sites[self.center - 1]
+            sites[self.center - 1] = (b.reshape(-1, dl) @ l).reshape(b.shape[0], b.shape[1], l.shape[1])
             self.flops += dl * p * dr * dl
             self.center -= 1
 
     # ---- the window operation ----------------------------------------------
-    def apply(self, lo: int, hi: int, node: np.ndarray | None, axes: tuple, perm: tuple, count: int,
-              cap: int | None = None) -> None:
-        """Replace sites [lo, hi) by ``count`` new sites.
-
-        node : the absorbed node's array, or None; axes : (window axes, node axes)
-        for np.tensordot; perm : transpose of the result into
-        (D_left, new physical legs..., D_right).
-        """
+    def apply(self, step: Step, node: np.ndarray | None, cap: int) -> None:
+        """Replace sites [step.lo, step.hi) by ``step.count`` new sites, absorbing ``node``
+        (shape (2,) * degree; None for a swap); bonds wider than ``cap`` are truncated."""
+        lo, hi, count = step.lo, step.hi, step.count
         if hi > lo:
             self._move_center(lo, hi)
-            block = self.sites[lo]
+            sites = self.sites
+            first = sites[lo]
+            dl = first.shape[0]
+            block = first.reshape(-1, first.shape[2])
             for i in range(lo + 1, hi):
-                block = np.tensordot(block, self.sites[i], axes=(block.ndim - 1, 0))
-                self.flops += block.size * self.sites[i].shape[0]
+                b = sites[i]
+                self.flops += block.shape[0] * b.shape[0] * b.shape[1] * b.shape[2]
+                block = (block @ b.reshape(b.shape[0], -1)).reshape(-1, b.shape[2])
+            dr = block.shape[1]
+            if step.node_perm is not None:  # every window leg summed against the node
+                width = block.shape[0] // dl
+                legs = node.transpose(step.node_perm).reshape(-1, width)  # (free, summed)
+                self.flops += legs.size * dl * dr
+                block = np.matmul(legs, block.reshape(dl, width, dr))  # (D_left, free, D_right)
+            elif node is None:  # a swap
+                block = block.reshape(dl, 2, 2, dr).transpose(step.perm)
+            else:
+                block = self._general(block.reshape((dl,) + (2,) * (hi - lo) + (dr,)), node, step)
         else:
-            block = np.ones((1, 1))
-        if node is not None:
-            out = np.tensordot(block, node, axes=axes)
-            self.flops += out.size * (2 ** len(axes[0]))
-            block = out
-        block = block.transpose(perm)
+            block = self._general(np.ones((1, 1)), node, step)
         self.largest = max(self.largest, block.size)
-        self.sites[lo:hi] = self._split(block, count, self.chi if cap is None else cap)
+        self.sites[lo:hi] = self._split(block, count, cap)
         if count:
             self.center = lo + count - 1
             centre = self.sites[self.center]
-            norm = float(np.linalg.norm(centre))
+            norm = math.sqrt(float(np.dot(centre.reshape(-1), centre.reshape(-1))))
         else:
             norm = abs(float(block.reshape(-1)[0]))
             self.center = min(self.center, max(len(self.sites) - 1, 0))
@@ -87,60 +126,126 @@ class LineMPS:
             return
         self.log_value += math.log(norm)
         if count:
-            self.sites[self.center] = centre / norm
+            self.sites[self.center] = centre * (1.0 / norm)
+
+    def _general(self, block: np.ndarray, node: np.ndarray, step: Step) -> np.ndarray:
+        out = np.tensordot(block, node, axes=step.axes)
+        self.flops += out.size * (2 ** len(step.axes[0]))
+        return out.transpose(step.perm)
 
     def compress(self) -> None:
-        """Cut every bond wider than chi, sweeping the centre across them (QR elsewhere)."""
-        sites = self.sites
-        wide = [i for i in range(len(sites) - 1) if sites[i].shape[2] > self.chi]
+        """Cut every bond wider than chi by one sweep of truncated SVDs across the wide bonds.
+
+        The sweep starts from the end of the wide range nearer the centre and
+        leaves the centre at the other end (LQ/QR where a bond is not wide).
+        """
+        sites, chi = self.sites, self.chi
+        wide = [i for i in range(len(sites) - 1) if sites[i].shape[2] > chi]
         if not wide:
             return
-        self._move_center(wide[0], wide[0] + 1)
-        for i in range(wide[0], wide[-1] + 1):
-            a = sites[i]
-            dl, p, dr = a.shape
-            m = a.reshape(dl * p, dr)
-            if dr > self.chi:
-                u, s, vh = np.linalg.svd(m, full_matrices=False)
-                self.flops += m.shape[0] * m.shape[1] * min(m.shape)
-                keep = self._keep(s, self.chi)
-                sites[i] = u[:, :keep].reshape(dl, p, keep)
-                r = s[:keep, None] * vh[:keep]
-            else:
-                q, r = np.linalg.qr(m)
-                sites[i] = q.reshape(dl, p, -1)
-            sites[i + 1] = np.tensordot(r, sites[i + 1], axes=(1, 0))
-        self.center = wide[-1] + 1
-        norm = float(np.linalg.norm(sites[self.center]))
+        first, last = wide[0], wide[-1] + 1  # the wide bonds lie between sites first .. last
+        if 2 * self.center >= first + last:
+            self._move_center(last, last + 1)
+            for i in range(last, first, -1):  # right to left: cut the bond (i - 1, i)
+                a = sites[i]
+                dl, p, dr = a.shape
+                m = a.reshape(dl, p * dr)
+                if dl > chi:
+                    self.flops += m.shape[0] * m.shape[1] * min(m.shape)
+                    u, s, vt = svd(m)
+                    keep = self._keep(s, chi)
+                    left = u[:, :keep] * s[:keep]
+                    sites[i] = vt[:keep].reshape(keep, p, dr)
+                else:
+                    left, q = lq(m)
+                    sites[i] = q.reshape(-1, p, dr)
+                b = sites[i - 1]
+                sites[i - 1] = (b.reshape(-1, dl) @ left).reshape(b.shape[0], p, left.shape[1])
+            self.center = first
+        else:
+            self._move_center(first, first + 1)
+            for i in range(first, last):  # left to right: cut the bond (i, i + 1)
+                a = sites[i]
+                dl, p, dr = a.shape
+                m = a.reshape(dl * p, dr)
+                if dr > chi:
+                    self.flops += m.shape[0] * m.shape[1] * min(m.shape)
+                    u, s, vt = svd(m)
+                    keep = self._keep(s, chi)
+                    right = s[:keep, None] * vt[:keep]
+                    sites[i] = u[:, :keep].reshape(dl, p, keep)
+                else:
+                    q, right = qr(m)
+                    sites[i] = q.reshape(dl, p, -1)
+                b = sites[i + 1]
+                sites[i + 1] = (right @ b.reshape(dr, -1)).reshape(right.shape[0], b.shape[1], b.shape[2])
+            self.center = last
+        centre = sites[self.center]
+        norm = math.sqrt(float(np.dot(centre.reshape(-1), centre.reshape(-1))))
         if norm == 0.0:
             self.log_value = -math.inf
             return
         self.log_value += math.log(norm)
-        sites[self.center] /= norm
+        sites[self.center] = centre * (1.0 / norm)
 
     def _keep(self, s: np.ndarray, cap: int) -> int:
         """How many singular values ``s`` (descending) survive cutoff and cap; adds the discarded weight."""
-        keep = int(np.count_nonzero(s > self.cutoff * s[0])) if s[0] > 0 else 1
-        keep = max(1, min(keep, cap))
-        total = float(np.dot(s, s))
-        if keep < s.size and total > 0:
-            self.discarded += float(np.dot(s[keep:], s[keep:])) / total
+        n = s.shape[0]
+        if s[0] <= 0:
+            keep = 1
+        elif s[n - 1] > self.cutoff * s[0]:
+            keep = min(n, cap)
+        else:
+            keep = max(1, min(int(np.count_nonzero(s > self.cutoff * s[0])), cap))
+        if keep < n:
+            total = float(np.dot(s, s))
+            if total > 0:
+                self.discarded += float(np.dot(s[keep:], s[keep:])) / total
         return keep
 
     def _split(self, block: np.ndarray, count: int, cap: int) -> list[np.ndarray]:
-        """Cut (D_left, 2, ..., 2, D_right) into ``count`` sites, left to right, truncating."""
+        """Cut (D_left, 2, ..., 2, D_right) into ``count`` sites, left to right: by QR where the
+        new bond fits ``cap``, else by SVD truncated to ``cap``."""
         if count == 0:
             return []
         dl, dr = block.shape[0], block.shape[-1]
-        rest = block.reshape(dl, -1)
+        if count == 1:
+            return [block.reshape(dl, 2, dr)]
+        rest = block.reshape(dl * 2, -1)
         out = []
-        for _ in range(count - 1):
-            m = rest.reshape(dl * 2, -1)
-            u, s, vh = np.linalg.svd(m, full_matrices=False)
+        for k in range(count - 1):
+            m = rest if k == 0 else rest.reshape(dl * 2, -1)
             self.flops += m.shape[0] * m.shape[1] * min(m.shape)
-            keep = self._keep(s, cap)
-            out.append(u[:, :keep].reshape(dl, 2, keep))
-            rest = s[:keep, None] * vh[:keep]
+            if min(m.shape) <= cap:
+                q, rest = qr(m)
+                keep = q.shape[1]
+                out.append(q.reshape(dl, 2, keep))
+            else:
+                u, s, vt = svd(m)
+                keep = self._keep(s, cap)
+                out.append(u[:, :keep].reshape(dl, 2, keep))
+                rest = s[:keep, None] * vt[:keep]
             dl = keep
         out.append(rest.reshape(dl, 2, dr))
         return out
+
+
+def log_overlap(left: LineMPS, right: LineMPS) -> float:
+    """ln |sum over all site legs of left x right|, where ``right`` runs along the line the other way
+    (its site i sits on the bond of ``left``'s site L - 1 - i), plus both carried logs."""
+    a_sites, b_sites = left.sites, right.sites[::-1]
+    if len(a_sites) != len(b_sites):
+        raise ValueError(f"lines of {len(a_sites)} and {len(b_sites)} sites cannot be joined")
+    env = np.ones((1, 1))  # (D_right of b, D_right of a) so far
+    log_env = 0.0
+    for a, b in zip(a_sites, b_sites):
+        dal, p, dar = a.shape
+        dbr, _, dbl = b.shape  # b runs the other way: (D toward a's right, leg, D toward a's left)
+        tmp = (env @ a.reshape(dal, p * dar)).reshape(dbl, p, dar).transpose(1, 0, 2).reshape(p * dbl, dar)
+        env = b.reshape(dbr, p * dbl) @ tmp
+        scale = float(np.abs(env).max())
+        if scale == 0.0:
+            return -math.inf
+        log_env += math.log(scale)
+        env = env * (1.0 / scale)
+    return left.log_value + right.log_value + log_env + math.log(abs(float(env[0, 0])))

@@ -45,6 +45,7 @@ class SweepSchedule:
     direction: float  # degrees
     max_line: int  # largest number of bonds crossing the line
     swaps: int
+    line: list[int]  # bond ids crossing the line when it stops, in line order (empty after a whole piece)
 
 
 def sweep_order(positions: np.ndarray, degrees: float) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -63,15 +64,17 @@ def sweep_order(positions: np.ndarray, degrees: float) -> tuple[np.ndarray, np.n
 
 
 def build_schedule(structure, degrees: float, nodes: list[int] | None = None) -> SweepSchedule:
-    """Simulate the sweep over ``nodes`` (default: all; they must hold every
-    neighbour of each of them) and record every window operation."""
+    """Simulate the sweep over ``nodes`` (default: all) and record every window operation.
+
+    Bonds from ``nodes`` to nodes outside them are never absorbed: they are
+    still on the line when it stops (``SweepSchedule.line``)."""
     pos = np.asarray(structure.positions, dtype=float)
     order, t, s = sweep_order(pos, degrees)
     if nodes is not None:
         keep = np.zeros(len(pos), dtype=bool)
         keep[nodes] = True
         order = order[keep[order]]
-    rank = np.full(len(pos), -1, dtype=int)
+    rank = np.full(len(pos), len(pos), dtype=int)  # nodes left out come after every swept one
     rank[order] = np.arange(len(order))
     bonds = structure.bonds
     line: list[int] = []  # open bond ids in MPS order
@@ -122,7 +125,20 @@ def build_schedule(structure, degrees: float, nodes: list[int] | None = None) ->
         new_bonds = [window[k[1]] if k[0] == "w" else axes[k[1]] for k in output]
         line[lo:hi] = new_bonds
         max_line = max(max_line, len(line))
-    return SweepSchedule(ops=ops, direction=degrees, max_line=max_line, swaps=swaps)
+    return SweepSchedule(ops=ops, direction=degrees, max_line=max_line, swaps=swaps, line=line)
+
+
+def reorder_line(schedule: SweepSchedule, target: list[int]) -> None:
+    """Append swaps to ``schedule`` so its final line is ``target`` (the same bonds in another order)."""
+    line = schedule.line
+    if sorted(line) != sorted(target):
+        raise ValueError("the two lines do not cross the same bonds")
+    where = {b: i for i, b in enumerate(target)}
+    for end in range(len(line) - 1, 0, -1):  # bubble sort by target position
+        for i in range(end):
+            if where[line[i]] > where[line[i + 1]]:
+                _swap(line, i, schedule.ops)
+                schedule.swaps += 1
 
 
 def _leaving_angle(d: np.ndarray, degrees: float) -> float:
@@ -136,19 +152,21 @@ def _leaving_angle(d: np.ndarray, degrees: float) -> float:
 
 
 def _gather(line: list[int], where: list[int], ops: list[WindowOp]) -> int:
-    """Swap sites so the sites at ``where`` (sorted) become consecutive; returns swaps made."""
+    """Swap sites so the sites at ``where`` (sorted) become consecutive around their median;
+    returns swaps made. Each site moves next to its already gathered neighbour, so it only
+    passes sites that are not gathered."""
+    pos = list(where)
+    mid = len(pos) // 2
     count = 0
-    target = where[len(where) // 2] - len(where) // 2  # gather around the median
-    for k, idx in enumerate(where):
-        dest = target + k
-        pos_now = idx
-        while pos_now > dest:
-            _swap(line, pos_now - 1, ops)
-            pos_now -= 1
+    for k in range(mid - 1, -1, -1):  # left of the median: move right
+        while pos[k] < pos[k + 1] - 1:
+            _swap(line, pos[k], ops)
+            pos[k] += 1
             count += 1
-        while pos_now < dest:
-            _swap(line, pos_now, ops)
-            pos_now += 1
+    for k in range(mid + 1, len(pos)):  # right of the median: move left
+        while pos[k] > pos[k - 1] + 1:
+            _swap(line, pos[k] - 1, ops)
+            pos[k] -= 1
             count += 1
     return count
 
@@ -172,6 +190,25 @@ def _insertion_index(line, bonds, v, t, s, pos) -> int:
         if crossing > sv:
             return i
     return len(line)
+
+
+def split_at_middle(structure, degrees: float, nodes: list[int]) -> tuple[list[int], list[int]]:
+    """``nodes`` cut in two by a line across the direction: those before it and those after.
+
+    The cut falls between two distinct coordinates along the direction (never
+    through a row of ties), as near half the nodes as possible; ([], nodes)
+    when they all share one coordinate.
+    """
+    pos = np.asarray(structure.positions, dtype=float)[nodes]
+    a = math.radians(degrees)
+    t = np.round(pos @ np.array([math.cos(a), math.sin(a)]) / TIE) * TIE
+    order = np.argsort(t, kind="stable")
+    gaps = [k for k in range(1, len(order)) if t[order[k]] > t[order[k - 1]]]
+    if not gaps:
+        return [], list(nodes)
+    k = min(gaps, key=lambda g: (abs(2 * g - len(order)), g))
+    ids = np.asarray(nodes)[order]
+    return [int(v) for v in ids[:k]], [int(v) for v in ids[k:]]
 
 
 def layer_ends(structure, schedule: SweepSchedule, width: float | None = None) -> list[bool]:
