@@ -91,7 +91,8 @@ class LineMPS:
         (shape (2,) * degree; None for a swap); bonds wider than ``cap`` are truncated."""
         lo, hi, count = step.lo, step.hi, step.count
         if hi > lo:
-            self._move_center(lo, hi)
+            if not lo <= self.center < hi:
+                self._move_center(lo, hi)
             sites = self.sites
             first = sites[lo]
             dl = first.shape[0]
@@ -212,6 +213,10 @@ class LineMPS:
         if count == 1:
             return [block.reshape(dl, 2, dr)]
         rest = block.reshape(dl * 2, -1)
+        if count == 2 and min(rest.shape) <= cap:  # the common case, exact
+            self.flops += rest.shape[0] * rest.shape[1] * min(rest.shape)
+            q, rest = qr(rest)
+            return [q.reshape(dl, 2, -1), rest.reshape(-1, 2, dr)]
         out = []
         for k in range(count - 1):
             m = rest if k == 0 else rest.reshape(dl * 2, -1)
