@@ -72,7 +72,7 @@ def chi_ladder(cap: int) -> list[int]:
 
 def choose(code: PauliCode, noise_table: np.ndarray, catalog: Catalog, target: Target | None = None,
            budget: Budget | None = None, seed: int = 0, *, calibration: int = 6, chi_cap: int = 64,
-           strategies: Sequence[str] | None = None, store: ChoiceStore | None = None,
+           strategies: Sequence[str] | None = None, allow_exact: bool = True, store: ChoiceStore | None = None,
            progress: Callable[[Candidate], None] | None = None) -> Choice:
     """Choose a strategy setting for one code and noise table; see the module docstring.
 
@@ -86,6 +86,8 @@ def choose(code: PauliCode, noise_table: np.ndarray, catalog: Catalog, target: T
     calibration : int, number of calibration instances (>= 1)
     chi_cap : int, largest chi tried
     strategies : names to calibrate (default DEFAULT_STRATEGIES present in the catalog)
+    allow_exact : bool, False: exact strategies serve as the reference only, never as the choice
+        (to pick an approximate setting, e.g. for larger sizes of the same family)
     store : ChoiceStore, optional; a stored choice for the same key is returned
         (``from_store`` True) and a new one is saved
     progress : called with each candidate once it is measured
@@ -98,7 +100,8 @@ def choose(code: PauliCode, noise_table: np.ndarray, catalog: Catalog, target: T
     chosen_strategies = _strategies(catalog, strategies)
     structure = NetworkBuilder(code, table).structure
     names = [s.name for s in chosen_strategies]
-    key, question = choice_question(structure.fingerprint, table, target, budget, seed, calibration, chi_cap, names)
+    key, question = choice_question(structure.fingerprint, table, target, budget, seed, calibration, chi_cap, names,
+                                    allow_exact)
     if store is not None:
         stored = store.get(key)
         if stored is not None:
@@ -116,7 +119,7 @@ def choose(code: PauliCode, noise_table: np.ndarray, catalog: Catalog, target: T
             compare(run, run, "itself")
             reference = reference or run
         notify(run.candidate)
-        if run.candidate.fits(budget):
+        if allow_exact and run.candidate.fits(budget):
             return _finish(run.candidate, True, candidates, costs, structure.fingerprint, (key, question),
                            target, budget, seed, calibration, store)
     for strategy in chosen_strategies:
@@ -127,7 +130,8 @@ def choose(code: PauliCode, noise_table: np.ndarray, catalog: Catalog, target: T
         for direction in directions:
             extra = {} if direction is None else {"direction": direction}
             _track(code, table, strategy, extra, ladder, errors, reference, target, budget, candidates, notify)
-    chosen, met = select(candidates, target, budget)
+    chosen, met = select([c for c in candidates if allow_exact or c.strategy not in {s.name for s in exacts}],
+                         target, budget)
     return _finish(chosen, met, candidates, costs, structure.fingerprint, (key, question), target, budget, seed,
                    calibration, store)
 

@@ -24,7 +24,7 @@ from tnarena.strategy import Strategy
 LINE_ANGLES = (0.0, 90.0, 180.0, 270.0, 45.0, 135.0, 225.0, 315.0)
 
 #: A second direction (not parallel to the best) is calibrated when its cost is within this factor.
-SECOND_DIRECTION = 1.5
+SECOND_DIRECTION = 2.0
 
 #: Cost keys that rank directions, the first one present counting (smaller is cheaper).
 RANK_KEYS = ("largest_column", "max_crossings", "width", "flops_estimate", "flops")

@@ -35,13 +35,16 @@ def noise_digest(table: np.ndarray) -> str:
 
 
 def choice_question(fingerprint: str, table: np.ndarray, target: Target, budget: Budget, seed: int,
-                    calibration: int, chi_cap: int, strategies: Sequence[str]) -> tuple[str, dict]:
+                    calibration: int, chi_cap: int, strategies: Sequence[str],
+                    allow_exact: bool = True) -> tuple[str, dict]:
     """(store key, question): the key is the SHA-256 of the question, everything the choice depends on."""
     question = {"fingerprint": fingerprint, "noise": noise_digest(table),
                 "target": [target.max_error, target.min_agreement],
                 "budget": [budget.memory_bytes, budget.seconds_per_decode],
                 "seed": int(seed), "calibration": int(calibration), "chi_cap": int(chi_cap),
                 "strategies": list(strategies)}
+    if not allow_exact:  # keys of choices that may be exact stay as they were
+        question["allow_exact"] = False
     return hashlib.sha256(json.dumps(question, sort_keys=True).encode()).hexdigest(), question
 
 
