@@ -31,8 +31,10 @@ SMALL = {
     "codes": [{"family": "surface", "lattices": ["square", "hexagonal"], "sizes": [3, 4]}],
     "noise": [{"model": "bit_flip", "rates": [0.1]}, {"model": "depolarizing", "rates": [0.12]}],
     "strategies": [{"name": "sweep", "grid": {"chi": [2, 32]}}, {"name": "columns", "params": {"chi": 4}},
-                   {"name": "exact", "params": {"max_repeats": 8}}],
-    "reference": {"strategy": "exact", "params": {"max_repeats": 8}},
+                   {"name": "exact", "params": {"max_repeats": 8, "search_time": 0}}],
+    # search_time 0: the tree search ends by max_repeats, never by the clock, so two
+    # databases planned apart get the same trees (see the exact plugin's seed test)
+    "reference": {"strategy": "exact", "params": {"max_repeats": 8, "search_time": 0}},
 }
 
 
@@ -83,7 +85,7 @@ def test_exact_reference_gives_zero_error_and_sweep_converges(catalog, small_db)
     """Sweep at chi 32 on these small patches is exact to rounding (as in the sweep plugin's tests, 1e-10)."""
     rows = {(r.point, r.setting): r for r in summarise(task_metrics(Store(str(small_db))))}
     for (point, setting), r in rows.items():
-        assert r.reference == "exact(max_repeats=8)" and not r.approximate_reference
+        assert r.reference == "exact(max_repeats=8,search_time=0)" and not r.approximate_reference
         if setting.startswith("exact"):
             assert r.mean_abs_error == 0.0 and r.agreement == 1.0
         if setting == "sweep(chi=32)":

@@ -34,6 +34,8 @@ examples:
   tnarena demo                          decode a few seeded instances with the defaults
   tnarena run studies/demo.toml         run (or resume) a head-to-head study; summary table at the end
   tnarena compare --size 7 --setting sweep:chi=8 --setting exact    quick head-to-head, no study file
+  tnarena threshold studies/square_bit_flip.db    threshold estimates with bootstrap intervals
+  tnarena choose --lattice kagome --size 9 --noise bit_flip --rate 0.08   pick a strategy, show why
 
 A decode draws one error from the noise model (seeded), computes ln P of every
 logical class of its syndrome with the chosen strategy, and picks the largest
@@ -104,9 +106,10 @@ def _parser() -> argparse.ArgumentParser:
     p = sub.add_parser("demo", help="decode a few seeded instances on built-in defaults")
     p.set_defaults(run=_run_demo)
 
-    from tnarena.cli_arena import add_commands
+    from tnarena import cli_arena, cli_choose
 
-    add_commands(sub)
+    cli_arena.add_commands(sub)
+    cli_choose.add_commands(sub)
     return parser
 
 

@@ -96,6 +96,9 @@ def add_commands(sub: argparse._SubParsersAction) -> None:
 def _pool_options(p: argparse.ArgumentParser) -> None:
     p.add_argument("--workers", type=int, default=None,
                    help=f"worker processes (default: the number of cores, {os.cpu_count()} here)")
+    p.add_argument("--dask", metavar="ADDRESS|local", default=None,
+                   help="run on Dask: a scheduler address (tcp://host:8786), or 'local' for a local cluster "
+                        "of --workers processes (docs/cluster.md)")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
 
 
@@ -150,14 +153,20 @@ def _execute(study, db: str, catalog, args: argparse.Namespace, report: str | No
         print(f"resuming: the database {db!r} already holds {before} finished task(s); they are not run again.",
               file=sys.stderr)
     progress = None if args.quiet else sys.stderr
+    executor, where = None, f"{workers} worker(s)"
+    if args.dask:
+        from tnarena.arena.dask_pool import dask_factory
+
+        executor = dask_factory(None if args.dask == "local" else args.dask)
+        where = f"a local Dask cluster of {workers} worker(s)" if args.dask == "local" else f"Dask at {args.dask}"
     try:
-        outcome = run_study(study, store, catalog, workers=workers, progress=progress)
+        outcome = run_study(study, store, catalog, workers=workers, executor=executor, progress=progress)
     except KeyboardInterrupt:
         print(f"\ninterrupted: finished tasks are stored in {db!r}; run the same command to resume.",
               file=sys.stderr)
         return 130
     print(f"{study.title}: {outcome.tasks_run} task(s) run in {outcome.seconds:.1f} s "
-          f"({outcome.tasks_failed} failed) with {workers} worker(s); database {db}\n")
+          f"({outcome.tasks_failed} failed) on {where}; database {db}\n")
     print(format_summary(summarise(task_metrics(store))))
     if report:
         from tnarena.arena.report import write_report
