@@ -185,3 +185,21 @@ def test_matching_baseline_decodes_the_same_instances(catalog, tmp_path):
         assert m["agrees"] == (m["decision"] == exact[m["instance"]]["decision"])
     (row,) = [r for r in summarise(metrics) if r.setting == "matching"]
     assert row.mean_abs_error is None and row.agreement is not None
+
+
+def test_a_study_can_name_the_automatic_choice_and_records_it_per_point(catalog, tmp_path):
+    """name = "auto": the chooser picks a setting per point; it is stored and shown with the results.
+
+    With a 1 KiB memory budget exact (which needs more at size 9) cannot be the
+    choice; the chosen setting is then judged against exact like any other.
+    """
+    data = dict(SMALL, samples=3, codes=[{"family": "surface", "lattices": ["square"], "sizes": [9]}],
+                noise=[{"model": "bit_flip", "rates": [0.08]}],
+                strategies=[{"name": "auto", "params": {"budget_mib": 1 / 1024, "calibration": 2}}])
+    store, _ = run(catalog, data, tmp_path / "auto.db", workers=2)
+    (plan,) = store.rows("SELECT p.choice FROM plans p JOIN settings s ON s.id = p.setting_id WHERE s.strategy = 'auto'")
+    chosen = json.loads(plan["choice"])
+    assert chosen["strategy"] in ("sweep", "columns") and chosen["candidates"]
+    (row,) = [r for r in summarise(task_metrics(store)) if r.strategy == "auto"]
+    assert row.chosen.startswith(chosen["strategy"] + ":chi=") and row.failed == 0
+    assert row.mean_abs_error is not None and row.reference.startswith("exact")

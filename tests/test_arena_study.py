@@ -124,3 +124,14 @@ def test_baselines_join_the_settings_and_unknown_ones_are_refused(catalog):
         parse_study(dict(GOOD, baselines=[{"name": "oracle"}]), catalog)
     with pytest.raises(TnarenaError, match=r"baselines\[0\]: unknown key 'chi'"):
         parse_study(dict(GOOD, baselines=[{"name": "matching", "chi": 4}]), catalog)
+
+
+@pytest.mark.parametrize("entry, message", [
+    ({"name": "auto", "grid": {"chi": [4]}}, "the automatic choice takes params, not a grid"),
+    ({"name": "auto", "params": {"chi": 4}}, "the automatic choice has no option 'chi'; its options are: target_error"),
+    ({"name": "auto", "params": {"target_agreement": 1.5}}, "auto option target_agreement = 1.5 is out of range"),
+    ({"name": "auto", "params": {"calibration": 2.5}}, "auto option calibration must be an integer"),
+])
+def test_bad_automatic_choice_options_are_refused(catalog, entry, message):
+    with pytest.raises(TnarenaError, match=message):
+        parse_study(broken(("strategies",), [entry]), catalog)

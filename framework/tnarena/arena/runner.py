@@ -93,7 +93,7 @@ def _run_phase(study: Study, store: Store, pool, run_id: int, point_ids: dict[Po
             continue
         for at in range(0, len(todo), chunk_size):
             chunks.append(Chunk(point, setting, pid, sid, tuple(todo[at:at + chunk_size]), study.seed,
-                                study.trace_memory, plan=plan["plan"]))
+                                study.trace_memory, plan=plan["plan"], choice=plan["choice"]))
     total = len(refused) + sum(len(c.instances) for c in chunks)
     if not total:
         return
@@ -142,7 +142,7 @@ def prepare_points(study: Study, store: Store, catalog: Catalog, progress: TextI
 
 def _setting_rows(study: Study, catalog: Catalog) -> list[dict]:
     return [{"key": s.key, "label": s.label, "strategy": s.strategy, "params": json.dumps(dict(s.params)),
-             "exact": int(s.kind == "strategy" and catalog.strategy(s.strategy).exact),
+             "exact": int(s.kind == "strategy" and catalog.strategy(s.strategy).exact),  # auto: not known ahead
              "compared": int(s in study.settings),
              "reference": int(s == study.reference), "fallback": int(s == study.fallback)}
             for s in study.all_settings]

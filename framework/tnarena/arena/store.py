@@ -38,7 +38,7 @@ CREATE TABLE IF NOT EXISTS plans (
     setting_id INTEGER NOT NULL REFERENCES settings(id),
     run_id INTEGER NOT NULL REFERENCES runs(id),
     status TEXT NOT NULL CHECK (status IN ('ok', 'failed')),
-    reason TEXT, seconds REAL, plan BLOB, worker INTEGER, finished REAL NOT NULL,
+    reason TEXT, seconds REAL, plan BLOB, worker INTEGER, finished REAL NOT NULL, choice TEXT,
     PRIMARY KEY (point_id, setting_id));
 CREATE TABLE IF NOT EXISTS results (
     point_id INTEGER NOT NULL REFERENCES points(id),
@@ -74,6 +74,8 @@ class Store:
             self.db.execute("PRAGMA journal_mode=WAL")
             self.db.execute("PRAGMA synchronous=NORMAL")  # WAL + NORMAL: durable across a killed process
             self.db.executescript(SCHEMA)
+            if "choice" not in {r[1] for r in self.db.execute("PRAGMA table_info(plans)")}:
+                self.db.execute("ALTER TABLE plans ADD COLUMN choice TEXT")  # databases made before it
         except sqlite3.DatabaseError as exc:
             raise TnarenaError(f"{path!r} is not a tnarena study database ({exc}); give another --db path.") from None
 
@@ -141,10 +143,10 @@ class Store:
     def add_plan(self, point_id: int, setting_id: int, run_id: int, row: dict[str, Any]) -> None:
         with self._transaction():
             self.db.execute(
-                "INSERT INTO plans (point_id, setting_id, run_id, status, reason, seconds, plan, worker, finished) "
-                "VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?)",
+                "INSERT INTO plans (point_id, setting_id, run_id, status, reason, seconds, plan, worker, finished, "
+                "choice) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?)",
                 (point_id, setting_id, run_id, row["status"], row.get("reason"), row.get("plan_seconds"),
-                 row.get("plan"), row.get("worker"), time.time()))
+                 row.get("plan"), row.get("worker"), time.time(), row.get("choice")))
 
     def finished_tasks(self) -> set[tuple[int, int, int]]:
         """(point id, setting id, instance) of every task with a stored result."""

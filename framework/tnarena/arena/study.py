@@ -67,7 +67,8 @@ class Setting:
     """A strategy with the parameters the study gives it (the rest at their defaults).
 
     kind 'strategy' : a contraction strategy (class probabilities); 'baseline' : a
-    decoder of :mod:`tnarena.baselines` (a decision only).
+    decoder of :mod:`tnarena.baselines` (a decision only); 'auto' : the setting the
+    chooser picks at each point (params: its target and budget, AUTO_OPTIONS).
     """
 
     strategy: str
@@ -257,6 +258,8 @@ def _settings(entry: dict[str, Any], catalog: Catalog, where: str) -> list[Setti
     _check_keys(entry, _STRATEGY, where)
     if "name" not in entry:
         raise TnarenaError(f"{where}: give the strategy's name (tnarena list strategies).")
+    if entry["name"] == AUTO:
+        return _auto_settings(entry, where)
     strategy = _known(catalog.strategy, entry["name"], where)
     fixed, grid = entry.get("params", {}), entry.get("grid", {})
     both = sorted(set(fixed) & set(grid))
@@ -274,6 +277,33 @@ def _settings(entry: dict[str, Any], catalog: Catalog, where: str) -> list[Setti
             raise TnarenaError(f"{where}: {exc}") from None
         out.append(Setting(strategy.name, tuple(sorted(given.items()))))
     return out
+
+
+#: The strategy name that asks the chooser (tnarena.chooser) for a setting per point.
+AUTO = "auto"
+#: Options of the automatic choice: name -> (type, default, smallest allowed).
+AUTO_OPTIONS = {"target_error": (float, 1e-3, 0.0), "target_agreement": (float, 0.99, 0.0),
+                "budget_ms": (float, 1000.0, 1e-3), "budget_mib": (float, 1024.0, 1e-6),
+                "calibration": (int, 6, 1), "chi_cap": (int, 64, 2)}
+
+
+def _auto_settings(entry: dict[str, Any], where: str) -> list[Setting]:
+    """``name = "auto"``: one setting; params are the chooser's target and budget."""
+    if entry.get("grid"):
+        raise TnarenaError(f"{where}: the automatic choice takes params, not a grid.")
+    params = dict(entry.get("params", {}))
+    for key, value in params.items():
+        if key not in AUTO_OPTIONS:
+            raise TnarenaError(f"{where}: the automatic choice has no option {key!r}; its options are: "
+                               f"{', '.join(AUTO_OPTIONS)}.")
+        kind, _, smallest = AUTO_OPTIONS[key]
+        if isinstance(value, bool) or not isinstance(value, (int, float)) or (kind is int and not
+                                                                            isinstance(value, int)):
+            raise TnarenaError(f"{where}: auto option {key} must be {'an integer' if kind is int else 'a number'}, "
+                               f"not {value!r}.")
+        if value < smallest or (key == "target_agreement" and value > 1):
+            raise TnarenaError(f"{where}: auto option {key} = {value!r} is out of range.")
+    return [Setting(AUTO, tuple(sorted(params.items())), kind="auto")]
 
 
 def _baseline(entry: Any, where: str) -> Setting:
@@ -302,7 +332,7 @@ def _reference(entry: dict[str, Any], settings: list[Setting], catalog: Catalog,
             raise TnarenaError(f"{where}.fallback: give the fallback's strategy.")
         return reference, _one_setting(entry["fallback"]["strategy"], entry["fallback"].get("params", {}),
                                        catalog, f"{where}.fallback")
-    with_chi = [s for s in settings if "chi" in dict(s.params) and s.kind == "strategy"]
+    with_chi = [s for s in settings if "chi" in dict(s.params) and s.kind == "strategy"]  # not auto, baselines
     fallback = max(with_chi, key=lambda s: dict(s.params)["chi"]) if with_chi else None
     return reference, fallback
 

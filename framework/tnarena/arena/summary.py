@@ -21,7 +21,7 @@ from tnarena.arena.store import Store
 
 #: Columns of :func:`task_metrics` rows, in export order.
 TASK_COLUMNS = ("point", "family", "lattice", "size", "n", "distances", "model", "rate", "options", "setting", "strategy",
-                "params", "instance", "status", "reason", "syndrome", "reference", "approximate_reference", "classes",
+                "params", "chosen", "instance", "status", "reason", "syndrome", "reference", "approximate_reference", "classes",
                 "log_probs", "abs_errors", "mean_abs_error", "decision", "reference_decision", "agrees",
                 "true_class", "logical_failure", "contract_seconds", "decode_seconds", "plan_seconds",
                 "shared_plan_seconds",
@@ -33,7 +33,7 @@ def task_metrics(store: Store) -> list[dict[str, Any]]:
     rows = store.rows(
         "SELECT r.*, p.label AS point, p.family, p.lattice, p.size, p.n, p.distances, p.model, p.rate, p.options, "
         "s.label AS setting, s.strategy, s.params, s.reference AS is_reference, s.fallback AS is_fallback, "
-        "pl.seconds AS shared_plan_seconds "
+        "pl.seconds AS shared_plan_seconds, pl.choice AS choice "
         "FROM results r JOIN points p ON p.id = r.point_id JOIN settings s ON s.id = r.setting_id "
         "LEFT JOIN plans pl ON pl.point_id = r.point_id AND pl.setting_id = r.setting_id "
         "ORDER BY p.id, s.id, r.instance")
@@ -51,7 +51,7 @@ def task_metrics(store: Store) -> list[dict[str, Any]]:
             "point": r["point"], "family": r["family"], "lattice": r["lattice"], "size": r["size"], "n": r["n"],
             "distances": r["distances"],
             "model": r["model"], "rate": r["rate"], "options": r["options"], "setting": r["setting"],
-            "strategy": r["strategy"], "params": r["params"], "instance": r["instance"], "status": r["status"],
+            "strategy": r["strategy"], "params": r["params"], "chosen": _chosen(r["choice"]), "instance": r["instance"], "status": r["status"],
             "reason": r["reason"], "syndrome": r["syndrome"], "reference": label, "approximate_reference": bool(approximate),
             "classes": _json(r["classes"]), "log_probs": _json(r["log_probs"]), "abs_errors": errors,
             "mean_abs_error": None if errors is None else float(np.mean(errors)) if errors else 0.0,
@@ -129,6 +129,7 @@ class SummaryRow:
     approximate_reference: bool
     failure_reasons: tuple[str, ...] = ()
     distances: str = ""  # e.g. 'd_x = 7, d_z = 9' as the code reports them
+    chosen: str | None = None  # automatic settings: what the chooser picked at this point
 
 
 def summarise(metrics: list[dict[str, Any]]) -> list[SummaryRow]:
@@ -160,6 +161,7 @@ def summarise(metrics: list[dict[str, Any]]) -> list[SummaryRow]:
             reference=first["reference"], approximate_reference=first["approximate_reference"],
             failure_reasons=tuple(sorted({m["reason"] for m in ms if m["status"] != "ok"})),
             distances=_distances(first["distances"]),
+            chosen=first["chosen"],
         ))
     return out
 
@@ -168,6 +170,15 @@ def largest(values) -> float | None:
     """The largest of the values that are not None (None when there are none)."""
     vals = [v for v in values if v is not None]
     return float(max(vals)) if vals else None
+
+
+def _chosen(choice: str | None) -> str | None:
+    """The setting an automatic choice picked, e.g. 'sweep:chi=8,direction=0' (None otherwise)."""
+    if choice is None:
+        return None
+    data = json.loads(choice)
+    return data["strategy"] + "".join(
+        (":" if i == 0 else ",") + f"{k}={v}" for i, (k, v) in enumerate(data["params"].items()))
 
 
 def _distances(text: str | None) -> str:
@@ -189,7 +200,8 @@ _WIDTHS = (34, 10, 12, 11, 8, 10, 11, 9, 11, 11)
 
 def summary_cells(r: SummaryRow) -> tuple[str, ...]:
     """The cells of one summary line (SUMMARY_HEADERS), formatted as every table prints them."""
-    return (r.setting, f"{r.tasks - r.failed}/{r.tasks}", _num(r.mean_abs_error), _num(r.max_abs_error),
+    setting = r.setting if r.chosen is None else f"{r.setting} -> {r.chosen}"
+    return (setting, f"{r.tasks - r.failed}/{r.tasks}", _num(r.mean_abs_error), _num(r.max_abs_error),
             _pct(r.agreement), _pct(r.logical_failure_rate), _fixed(r.median_contract_ms),
             _fixed(r.plan_ms_per_instance), _bytes(r.peak_intermediate_bytes), _bytes(r.peak_traced_bytes))
 
@@ -212,7 +224,11 @@ def format_summary(rows: list[SummaryRow]) -> str:
 
 
 def _line(cells: tuple[str, ...]) -> str:
-    return "  " + cells[0].ljust(_WIDTHS[0]) + "".join(c.rjust(w) for c, w in zip(cells[1:], _WIDTHS[1:]))
+    """One table line; a setting too long for its column gets a line of its own above the numbers."""
+    rest = "".join(c.rjust(w) for c, w in zip(cells[1:], _WIDTHS[1:]))
+    if len(cells[0]) >= _WIDTHS[0]:
+        return "  " + cells[0] + "\n  " + " " * _WIDTHS[0] + rest
+    return "  " + cells[0].ljust(_WIDTHS[0]) + rest
 
 
 def _num(v: float | None) -> str:

@@ -11,6 +11,7 @@ them for later chunks, and reports one row per unit (columns of
 
 from __future__ import annotations
 
+import json
 import math
 import os
 import pickle
@@ -23,7 +24,7 @@ from typing import Any
 import numpy as np
 
 from tnarena.arena.seeds import instance_rng, integer_seed
-from tnarena.arena.study import Point, Setting
+from tnarena.arena.study import AUTO_OPTIONS, Point, Setting
 from tnarena.baselines import baseline
 from tnarena.catalog import Catalog
 from tnarena.decode import Decoder, class_label
@@ -56,6 +57,7 @@ class Chunk:
     trace_memory: int
     kind: str = "decode"
     plan: bytes | None = None
+    choice: str | None = None  # automatic settings: the chosen setting (JSON of Choice.to_dict())
 
 
 def build_code_and_noise(catalog: Catalog, seed: int, point: Point):
@@ -85,6 +87,7 @@ class TaskRunner:
         self.catalog = catalog
         self._codes: dict[tuple[int, str], Any] = {}
         self._decoders: OrderedDict[tuple[int, str, str], Decoder | TnarenaError] = OrderedDict()
+        self._choices: dict[tuple[int, str, str], str] = {}  # automatic settings: the chosen one, JSON
 
     def run(self, chunk: Chunk, unit: int) -> dict[str, Any]:
         """Plan, or decode one instance; a result row (failures included, never raises)."""
@@ -99,7 +102,7 @@ class TaskRunner:
         if chunk.kind == "plan":
             plan = getattr(decoder, "plan", None)
             return {"status": "ok", "plan": None if plan is None else _pickled(plan), "plan_seconds": plan_seconds,
-                    "worker": os.getpid()}
+                    "choice": self._choices.get(self._key(chunk)), "worker": os.getpid()}
         try:
             return self._decode(chunk, decoder, unit, plan_seconds)
         except Exception as exc:  # noqa: BLE001
@@ -109,7 +112,7 @@ class TaskRunner:
 
     def _decoder(self, chunk: Chunk) -> tuple[Decoder, float]:
         """The cached decoder and the time spent planning here (0 when the plan came with the chunk)."""
-        key = (chunk.seed, chunk.point.key, chunk.setting.key)
+        key = self._key(chunk)
         if key in self._decoders:
             self._decoders.move_to_end(key)
             cached = self._decoders[key]
@@ -122,15 +125,37 @@ class TaskRunner:
             decoder = baseline(chunk.setting.strategy).build(code, table)
             self._remember(key, decoder)
             return decoder, time.perf_counter() - start
-        strategy = self.catalog.strategy(chunk.setting.strategy)
         given = None if chunk.plan is None else pickle.loads(chunk.plan)
+        name, params, spent = chunk.setting.strategy, dict(chunk.setting.params), 0.0
+        if chunk.setting.kind == "auto":
+            self._choices[key], spent = self._choice(chunk, code, table)
+            chosen = json.loads(self._choices[key])
+            name, params = chosen["strategy"], chosen["params"]
         try:
-            decoder = Decoder(code, table, strategy, dict(chunk.setting.params), plan=given)
+            decoder = Decoder(code, table, self.catalog.strategy(name), params, plan=given)
         except TnarenaError as exc:
             self._remember(key, exc)
             raise
         self._remember(key, decoder)
-        return decoder, 0.0 if given is not None else decoder.plan_seconds
+        return decoder, spent + (0.0 if given is not None else decoder.plan_seconds)
+
+    def _choice(self, chunk: Chunk, code, table) -> tuple[str, float]:
+        """The chooser's setting for this point as JSON (calibrated here unless the chunk brings it)."""
+        if chunk.choice is not None:
+            return chunk.choice, 0.0
+        from tnarena.chooser import Budget, Target, choose
+
+        opts = {k: v[1] for k, v in AUTO_OPTIONS.items()} | dict(chunk.setting.params)
+        start = time.perf_counter()
+        choice = choose(code, table, self.catalog, Target(opts["target_error"], opts["target_agreement"]),
+                        Budget(opts["budget_mib"] * 2**20, opts["budget_ms"] / 1e3),
+                        seed=integer_seed(chunk.seed, chunk.point.key + "/auto"),
+                        calibration=opts["calibration"], chi_cap=opts["chi_cap"])
+        return json.dumps(choice.to_dict()), time.perf_counter() - start
+
+    @staticmethod
+    def _key(chunk: Chunk) -> tuple[int, str, str]:
+        return chunk.seed, chunk.point.key, chunk.setting.key
 
     def _remember(self, key, value) -> None:
         self._decoders[key] = value
