@@ -40,6 +40,19 @@ class Flaky(Strategy):
         return Estimate(0.0)
 
 
+class Sleepy(Strategy):
+    name = "sleepy"
+    summary = "test strategy: never finishes in time"
+
+    def plan(self, structure, params):
+        return "no plan needed"
+
+    def contract(self, plan, network):
+        time.sleep(SLEEP_SECONDS)
+        return Estimate(0.0)
+
+
 @tnarena.hookimpl
 def tnarena_register_strategies(register):
     register(Flaky())
+    register(Sleepy())

@@ -203,3 +203,17 @@ def test_a_study_can_name_the_automatic_choice_and_records_it_per_point(catalog,
     (row,) = [r for r in summarise(task_metrics(store)) if r.strategy == "auto"]
     assert row.chosen.startswith(chosen["strategy"] + ":chi=") and row.failed == 0
     assert row.mean_abs_error is not None and row.reference.startswith("exact")
+
+
+def test_a_setting_that_keeps_timing_out_is_given_up_at_that_point(tmp_path):
+    """After give_up_after time-outs the rest of that (point, setting) is recorded as skipped, not run."""
+    catalog = load_catalog(extra_plugins=[("flaky_test", flaky_plugin)])
+    data = {"title": "sleepy", "seed": 3, "samples": 6, "time_limit": 1, "give_up_after": 2,
+            "codes": [{"family": "surface", "lattices": ["square"], "sizes": [3]}],
+            "noise": [{"model": "bit_flip", "rates": [0.15]}],
+            "strategies": [{"name": "sleepy"}], "reference": {"strategy": "sweep", "params": {"chi": 4}}}
+    store, _ = run(catalog, data, tmp_path / "sleepy.db", workers=1, chunk_size=1)
+    reasons = sorted(m["reason"] for m in task_metrics(store) if m["strategy"] == "sleepy")
+    assert reasons[:4] == ["skipped: 2 tasks of this setting at this point ran past the time limit (1 s); "
+                           "raise time_limit or give_up_after to run it"] * 4
+    assert reasons[4:] == ["time limit exceeded (1 s)"] * 2

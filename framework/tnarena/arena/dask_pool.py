@@ -45,7 +45,7 @@ from dataclasses import dataclass, field, replace
 from types import ModuleType
 from typing import Any
 
-from tnarena.arena.pool import ResultHandler, _limit_memory
+from tnarena.arena.pool import ResultHandler, _limit_memory, skipped
 from tnarena.arena.worker import Chunk, TaskRunner, failed_row
 from tnarena.catalog import Catalog
 from tnarena.errors import TnarenaError
@@ -139,6 +139,7 @@ class DaskPool:
         self.address = address
         self.plugins: PluginSpec = tuple((name, m if isinstance(m, str) else m.__name__) for name, m in plugins)
         self.slack = slack
+        self.skip: Callable[[Chunk], str | None] | None = None  # as LocalPool.skip
 
     def run(self, chunks: list[Chunk], on_result: ResultHandler) -> None:
         """Run every chunk; ``on_result`` sees every unit exactly once, in the calling process."""
@@ -192,8 +193,10 @@ class _Run:
         while queue or self.flights:
             room = self._slots() - len(self.flights)
             while queue and room > 0:
-                self._submit(queue.pop())
-                room -= 1
+                chunk = queue.pop()
+                if not skipped(self.pool.skip, chunk, self.on_result):
+                    self._submit(chunk)
+                    room -= 1
             try:
                 done, _ = wait(list(self.flights), timeout=POLL, return_when="FIRST_COMPLETED")
             except TimeoutError:  # nothing finished within POLL seconds: check the deadlines

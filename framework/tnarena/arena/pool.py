@@ -55,6 +55,8 @@ class LocalPool:
         self.memory_limit = memory_limit
         methods = mp.get_all_start_methods()
         self._context = mp.get_context("fork" if "fork" in methods else "spawn")
+        #: Optional ``skip(chunk) -> reason | None``, asked before a chunk starts (see runner.GiveUp).
+        self.skip: Callable[[Chunk], str | None] | None = None
 
     def run(self, chunks: list[Chunk], on_result: ResultHandler) -> None:
         """Run every chunk; ``on_result`` sees every task exactly once."""
@@ -68,8 +70,10 @@ class LocalPool:
                 while queue and all(w.chunk is not None for w in pool) and len(pool) < self.workers:
                     pool.append(self._start_worker())
                 for w in pool:
-                    if w.chunk is None and queue:
-                        self._assign(w, queue.popleft())
+                    while w.chunk is None and queue:
+                        chunk = queue.popleft()
+                        if not skipped(self.skip, chunk, on_result):
+                            self._assign(w, chunk)
                 self._wait(pool, queue, on_result)
             finished = True
         finally:  # on an interruption the workers are killed at once; what finished is stored
@@ -142,6 +146,16 @@ class LocalPool:
             w.process.kill()
             w.process.join()
         w.conn.close()
+
+
+def skipped(skip: Callable[[Chunk], str | None] | None, chunk: Chunk, on_result: ResultHandler) -> bool:
+    """Record every unit of ``chunk`` as failed, without running it, when ``skip`` gives a reason."""
+    reason = skip(chunk) if skip is not None else None
+    if reason is None:
+        return False
+    for unit in chunk.instances:
+        on_result(chunk, unit, failed_row(reason))
+    return True
 
 
 def _worker_main(conn: Connection, memory_limit: float | None) -> None:

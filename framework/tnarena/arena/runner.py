@@ -51,6 +51,8 @@ def run_study(study: Study, store: Store, catalog: Catalog, *, workers: int = 1,
     point_ids = prepare_points(study, store, catalog, progress)
     setting_ids = store.set_settings(_setting_rows(study, catalog))
     pool = (executor or LocalPool)(catalog, workers, time_limit=study.time_limit, memory_limit=study.memory_limit)
+    gate = GiveUp(study.give_up_after, study.time_limit)
+    pool.skip = gate
     run_id = store.start_run(workers, 0)
     first = study.settings + ([study.reference] if study.reference not in study.settings else [])
     counts = [0, 0]
@@ -101,6 +103,7 @@ def _run_phase(study: Study, store: Store, pool, run_id: int, point_ids: dict[Po
 
     def on_result(chunk: Chunk, instance: int, row: dict) -> None:
         store.add_result(chunk.point_id, chunk.setting_id, instance, run_id, row)
+        pool.skip.saw(chunk, row)
         bar.advance(failed=row["status"] != "ok")
 
     for pid, sid, instance, reason in refused:  # no plan: every task fails for the plan's reason
@@ -110,6 +113,30 @@ def _run_phase(study: Study, store: Store, pool, run_id: int, point_ids: dict[Po
     bar.close()
     counts[0] += bar.done
     counts[1] += bar.failed
+
+
+class GiveUp:
+    """Skips a (point, setting) once it has run past the time limit ``after`` times (0: never).
+
+    Called by the executor before a chunk starts; told every result by the runner. Counts
+    start afresh in each run, so a resumed study tries such settings again.
+    """
+
+    def __init__(self, after: int, time_limit: float) -> None:
+        self.after, self.time_limit = after, time_limit
+        self.timeouts: dict[tuple[int, int], int] = {}
+
+    def saw(self, chunk: Chunk, row: dict) -> None:
+        if (row.get("reason") or "").startswith("time limit exceeded"):
+            key = (chunk.point_id, chunk.setting_id)
+            self.timeouts[key] = self.timeouts.get(key, 0) + 1
+
+    def __call__(self, chunk: Chunk) -> str | None:
+        count = self.timeouts.get((chunk.point_id, chunk.setting_id), 0)
+        if self.after and count >= self.after:
+            return (f"skipped: {count} tasks of this setting at this point ran past the time limit "
+                    f"({self.time_limit:g} s); raise time_limit or give_up_after to run it")
+        return None
 
 
 def prepare_points(study: Study, store: Store, catalog: Catalog, progress: TextIO | None) -> dict[Point, int]:

@@ -18,7 +18,7 @@ from tnarena.errors import TnarenaError
 
 #: Keys of the top level and of each table, with the type each takes.
 _TOP = {"title": str, "seed": int, "samples": int, "time_limit": (int, float), "memory_limit": (int, float),
-        "trace_memory": int, "codes": list, "noise": list, "strategies": list, "baselines": list,
+        "trace_memory": int, "give_up_after": int, "codes": list, "noise": list, "strategies": list, "baselines": list,
         "reference": dict}
 _CODE = {"family": str, "lattices": list, "sizes": list}
 _NOISE = {"model": str, "rates": list, "options": dict}
@@ -92,7 +92,9 @@ class Study:
 
     seed : study seed; samples : instances per point; time_limit : seconds per task
     (one decode); memory_limit : MiB per worker process (None: no limit); trace_memory :
-    instances per point whose contraction is re-run under tracemalloc; settings : compared
+    instances per point whose contraction is re-run under tracemalloc; give_up_after : after
+    this many time-outs of one setting at one point its other tasks there are recorded as
+    skipped, not run (0: never); settings : compared
     settings, in file order; reference : preferred reference setting; fallback : used at
     points where the reference's plan is refused (None: none).
     """
@@ -107,6 +109,7 @@ class Study:
     time_limit: float = 600.0
     memory_limit: float | None = None
     trace_memory: int = 3
+    give_up_after: int = 2
     source: str = ""
     extra: dict[str, Any] = field(default_factory=dict)
 
@@ -153,6 +156,9 @@ def parse_study(data: dict[str, Any], catalog: Catalog, *, where: str = "the stu
     memory_limit = data.get("memory_limit")
     if memory_limit is not None and memory_limit < 64:
         raise TnarenaError(f"{where}: memory_limit = {memory_limit:g} MiB is too small; give at least 64.")
+    give_up_after = data.get("give_up_after", 2)
+    if give_up_after < 0:
+        raise TnarenaError(f"{where}: give_up_after = {give_up_after}; give 0 (never) or a count of time-outs.")
     trace_memory = data.get("trace_memory", 3)
     if trace_memory < 0:
         raise TnarenaError(f"{where}: trace_memory = {trace_memory}; give 0 or more instances.")
@@ -175,7 +181,8 @@ def parse_study(data: dict[str, Any], catalog: Catalog, *, where: str = "the stu
     reference, fallback = _reference(data.get("reference", {}), settings, catalog, f"{where}: reference")
     return Study(title=data.get("title", "untitled study"), seed=seed, samples=samples, points=points,
                  settings=settings, reference=reference, fallback=fallback, time_limit=time_limit,
-                 memory_limit=None if memory_limit is None else float(memory_limit), trace_memory=trace_memory)
+                 memory_limit=None if memory_limit is None else float(memory_limit), trace_memory=trace_memory,
+                 give_up_after=give_up_after)
 
 
 def _check_keys(table: dict[str, Any], allowed: dict[str, Any], where: str) -> None:
