@@ -95,7 +95,8 @@ def _run_phase(study: Study, store: Store, pool, run_id: int, point_ids: dict[Po
             continue
         for at in range(0, len(todo), chunk_size):
             chunks.append(Chunk(point, setting, pid, sid, tuple(todo[at:at + chunk_size]), study.seed,
-                                study.trace_memory, plan=plan["plan"], choice=plan["choice"]))
+                                study.trace_memory, plan=plan["plan"], choice=plan["choice"],
+                                profile=study.profile))
     total = len(refused) + sum(len(c.instances) for c in chunks)
     if not total:
         return

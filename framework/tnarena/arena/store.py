@@ -50,14 +50,14 @@ CREATE TABLE IF NOT EXISTS results (
     syndrome TEXT, classes TEXT, log_probs TEXT, decision TEXT, true_class TEXT, logical_failure INTEGER,
     contract_seconds REAL, decode_seconds REAL, plan_seconds REAL,
     flops REAL, intermediate_bytes REAL, traced_peak_bytes REAL, discarded_weight REAL,
-    worker INTEGER, finished REAL NOT NULL,
+    worker INTEGER, finished REAL NOT NULL, profile TEXT,
     PRIMARY KEY (point_id, setting_id, instance));
 """
 
 #: What a worker reports for a task (besides point, setting, instance).
 RESULT_COLUMNS = ("status", "reason", "syndrome", "classes", "log_probs", "decision", "true_class", "logical_failure",
                   "contract_seconds", "decode_seconds", "plan_seconds", "flops", "intermediate_bytes",
-                  "traced_peak_bytes", "discarded_weight", "worker")
+                  "traced_peak_bytes", "discarded_weight", "worker", "profile")
 
 
 class Store:
@@ -74,8 +74,9 @@ class Store:
             self.db.execute("PRAGMA journal_mode=WAL")
             self.db.execute("PRAGMA synchronous=NORMAL")  # WAL + NORMAL: durable across a killed process
             self.db.executescript(SCHEMA)
-            if "choice" not in {r[1] for r in self.db.execute("PRAGMA table_info(plans)")}:
-                self.db.execute("ALTER TABLE plans ADD COLUMN choice TEXT")  # databases made before it
+            for table, column in (("plans", "choice"), ("results", "profile")):  # databases made before them
+                if column not in {r[1] for r in self.db.execute(f"PRAGMA table_info({table})")}:
+                    self.db.execute(f"ALTER TABLE {table} ADD COLUMN {column} TEXT")
         except sqlite3.DatabaseError as exc:
             raise TnarenaError(f"{path!r} is not a tnarena study database ({exc}); give another --db path.") from None
 

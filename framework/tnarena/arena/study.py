@@ -18,7 +18,7 @@ from tnarena.errors import TnarenaError
 
 #: Keys of the top level and of each table, with the type each takes.
 _TOP = {"title": str, "seed": int, "samples": int, "time_limit": (int, float), "memory_limit": (int, float),
-        "trace_memory": int, "give_up_after": int, "codes": list, "noise": list, "strategies": list, "baselines": list,
+        "trace_memory": int, "give_up_after": int, "profile": bool, "codes": list, "noise": list, "strategies": list, "baselines": list,
         "reference": dict}
 _CODE = {"family": str, "lattices": list, "sizes": list}
 _NOISE = {"model": str, "rates": list, "options": dict}
@@ -94,7 +94,8 @@ class Study:
     (one decode); memory_limit : MiB per worker process (None: no limit); trace_memory :
     instances per point whose contraction is re-run under tracemalloc; give_up_after : after
     this many time-outs of one setting at one point its other tasks there are recorded as
-    skipped, not run (0: never); settings : compared
+    skipped, not run (0: never); profile : sample where each decode's time goes
+    (:mod:`tnarena.arena.profiler`); settings : compared
     settings, in file order; reference : preferred reference setting; fallback : used at
     points where the reference's plan is refused (None: none).
     """
@@ -110,6 +111,7 @@ class Study:
     memory_limit: float | None = None
     trace_memory: int = 3
     give_up_after: int = 2
+    profile: bool = False
     source: str = ""
     extra: dict[str, Any] = field(default_factory=dict)
 
@@ -182,7 +184,7 @@ def parse_study(data: dict[str, Any], catalog: Catalog, *, where: str = "the stu
     return Study(title=data.get("title", "untitled study"), seed=seed, samples=samples, points=points,
                  settings=settings, reference=reference, fallback=fallback, time_limit=time_limit,
                  memory_limit=None if memory_limit is None else float(memory_limit), trace_memory=trace_memory,
-                 give_up_after=give_up_after)
+                 give_up_after=give_up_after, profile=data.get("profile", False))
 
 
 def _check_keys(table: dict[str, Any], allowed: dict[str, Any], where: str) -> None:
@@ -190,11 +192,11 @@ def _check_keys(table: dict[str, Any], allowed: dict[str, Any], where: str) -> N
         if key not in allowed:
             raise TnarenaError(f"{where}: unknown key {key!r}; the keys here are: {', '.join(allowed)}.")
         kind = allowed[key]
-        if isinstance(value, bool) or not isinstance(value, kind):
+        if (isinstance(value, bool) and kind is not bool) or not isinstance(value, kind):
             raise TnarenaError(f"{where}: {key} must be {_KIND_WORDS[kind]}, not {value!r}.")
 
 
-_KIND_WORDS = {str: "a string", int: "an integer", (int, float): "a number", list: "a list", dict: "a table"}
+_KIND_WORDS = {bool: "true or false", str: "a string", int: "an integer", (int, float): "a number", list: "a list", dict: "a table"}
 
 
 def _known(lookup, name: str, where: str) -> Any:

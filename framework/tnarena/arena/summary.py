@@ -25,7 +25,7 @@ TASK_COLUMNS = ("point", "family", "lattice", "size", "n", "distances", "model",
                 "log_probs", "abs_errors", "mean_abs_error", "decision", "reference_decision", "agrees",
                 "true_class", "logical_failure", "contract_seconds", "decode_seconds", "plan_seconds",
                 "shared_plan_seconds",
-                "flops", "intermediate_bytes", "traced_peak_bytes", "discarded_weight")
+                "flops", "intermediate_bytes", "traced_peak_bytes", "discarded_weight", "profile")
 
 
 def task_metrics(store: Store) -> list[dict[str, Any]]:
@@ -60,6 +60,7 @@ def task_metrics(store: Store) -> list[dict[str, Any]]:
             "true_class": r["true_class"], "logical_failure": r["logical_failure"],
             **{k: r[k] for k in ("contract_seconds", "decode_seconds", "plan_seconds", "shared_plan_seconds", "flops",
                                  "intermediate_bytes", "traced_peak_bytes", "discarded_weight")},
+            "profile": _json(r["profile"]),
         })
     return out
 
@@ -130,6 +131,7 @@ class SummaryRow:
     failure_reasons: tuple[str, ...] = ()
     distances: str = ""  # e.g. 'd_x = 7, d_z = 9' as the code reports them
     chosen: str | None = None  # automatic settings: what the chooser picked at this point
+    time_split: dict[str, int] | None = None  # profiled studies: samples per bin (tnarena.arena.profiler)
 
 
 def summarise(metrics: list[dict[str, Any]]) -> list[SummaryRow]:
@@ -162,6 +164,7 @@ def summarise(metrics: list[dict[str, Any]]) -> list[SummaryRow]:
             failure_reasons=tuple(sorted({m["reason"] for m in ms if m["status"] != "ok"})),
             distances=_distances(first["distances"]),
             chosen=first["chosen"],
+            time_split=_time_split(m["profile"] for m in ok),
         ))
     return out
 
@@ -170,6 +173,22 @@ def largest(values) -> float | None:
     """The largest of the values that are not None (None when there are none)."""
     vals = [v for v in values if v is not None]
     return float(max(vals)) if vals else None
+
+
+def _time_split(profiles) -> dict[str, int] | None:
+    """Samples per bin summed over the tasks that were profiled (None when none was)."""
+    total: dict[str, int] = {}
+    for profile in profiles:
+        for key, count in (profile or {}).items():
+            total[key] = total.get(key, 0) + count
+    return total or None
+
+
+def time_split_text(split: dict[str, int]) -> str:
+    """'61% products, 12% decompositions, 27% python (842 samples)'."""
+    n = sum(split.values())
+    parts = ", ".join(f"{100 * v / n:.0f}% {k}" for k, v in split.items()) if n else "no samples"
+    return f"{parts} ({n} samples)"
 
 
 def _chosen(choice: str | None) -> str | None:
@@ -218,6 +237,8 @@ def format_summary(rows: list[SummaryRow]) -> str:
             dist = f", {r.distances}" if r.distances else ""
             lines += ["", f"{r.point}  n = {r.n}{dist}  reference: {ref}{flag}", _line(SUMMARY_HEADERS)]
         lines.append(_line(summary_cells(r)))
+        if r.time_split:
+            lines.append(f"      contraction time: {time_split_text(r.time_split)}")
         for reason in r.failure_reasons:
             lines.append(f"      failed: {reason}")
     return "\n".join(lines).lstrip("\n")

@@ -18,11 +18,13 @@ import pickle
 import time
 import tracemalloc
 from collections import OrderedDict
+from contextlib import nullcontext
 from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
 
+from tnarena.arena.profiler import Sampler
 from tnarena.arena.seeds import instance_rng, integer_seed
 from tnarena.arena.study import AUTO_OPTIONS, Point, Setting
 from tnarena.baselines import baseline
@@ -58,6 +60,7 @@ class Chunk:
     kind: str = "decode"
     plan: bytes | None = None
     choice: str | None = None  # automatic settings: the chosen setting (JSON of Choice.to_dict())
+    profile: bool = False  # sample where the decode's time goes (tnarena.arena.profiler)
 
 
 def build_code_and_noise(catalog: Catalog, seed: int, point: Point):
@@ -171,14 +174,17 @@ class TaskRunner:
     def _decode(self, chunk: Chunk, decoder: Decoder, instance: int, plan_seconds: float) -> dict[str, Any]:
         _, table = self._code(chunk)
         error = sample_instance_error(chunk.seed, chunk.point, instance, table)
+        sampler = Sampler() if chunk.profile else nullcontext()
         start = time.perf_counter()
-        result = decoder.decode_error(error)
+        with sampler:
+            result = decoder.decode_error(error)
         decode_seconds = time.perf_counter() - start
+        profile = json.dumps(sampler.counts) if chunk.profile else None
         if chunk.setting.kind == "baseline":
             return {"status": "ok", "syndrome": syndrome_hex(result.syndrome), "decision": class_label(result.decision),
                     "true_class": class_label(result.true_class), "logical_failure": int(bool(result.failed)),
                     "contract_seconds": decode_seconds, "decode_seconds": decode_seconds,
-                    "plan_seconds": plan_seconds, "worker": os.getpid()}
+                    "plan_seconds": plan_seconds, "profile": profile, "worker": os.getpid()}
         stats = [c.stats for c in result.classes]
         row = {
             "status": "ok",
@@ -194,6 +200,7 @@ class TaskRunner:
             "flops": _total(stats, "flops"),
             "intermediate_bytes": _largest(stats, "largest_intermediate", BYTES_PER_ELEMENT),
             "discarded_weight": _largest(stats, "discarded_weight"),
+            "profile": profile,
             "worker": os.getpid(),
         }
         if instance < chunk.trace_memory:
