@@ -33,6 +33,8 @@ class Step:
     axes, perm : the general path, np.tensordot axes and the transpose into
         (D_left, new legs..., D_right)
     end : a layer ends after this step (cut wide bonds to chi)
+    rescale : divide the centre by its norm after this step (the log carried);
+        every few steps is enough to stay far from under- and overflow
     """
 
     lo: int
@@ -43,6 +45,7 @@ class Step:
     axes: tuple
     perm: tuple[int, ...]
     end: bool
+    rescale: bool = True
 
 
 class LineMPS:
@@ -115,6 +118,9 @@ class LineMPS:
             block = self._general(np.ones((1, 1)), node, step)
         self.largest = max(self.largest, block.size)
         self.sites[lo:hi] = self._split(block, count, cap)
+        if count and not step.rescale:
+            self.center = lo + count - 1
+            return
         if count:
             self.center = lo + count - 1
             centre = self.sites[self.center]
@@ -192,16 +198,16 @@ class LineMPS:
     def _keep(self, s: np.ndarray, cap: int) -> int:
         """How many singular values ``s`` (descending) survive cutoff and cap; adds the discarded weight."""
         n = s.shape[0]
-        if s[0] <= 0:
-            keep = 1
-        elif s[n - 1] > self.cutoff * s[0]:
-            keep = min(n, cap)
-        else:
-            keep = max(1, min(int(np.count_nonzero(s > self.cutoff * s[0])), cap))
+        top = s[0]
+        if top <= 0:
+            return 1
+        keep = min(n, cap)
+        floor = self.cutoff * top
+        if s[keep - 1] <= floor:
+            keep = max(1, int(np.searchsorted(-s, -floor, side="left")))
         if keep < n:
-            total = float(np.dot(s, s))
-            if total > 0:
-                self.discarded += float(np.dot(s[keep:], s[keep:])) / total
+            s2 = s * s
+            self.discarded += float(s2[keep:].sum() / s2.sum())
         return keep
 
     def _split(self, block: np.ndarray, count: int, cap: int) -> list[np.ndarray]:
