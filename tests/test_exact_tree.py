@@ -165,3 +165,31 @@ def test_same_seed_gives_the_same_tree_in_one_process(catalog):
     params = strategy.resolve({"search_time": 1e6, "max_repeats": 16, "seed": 4})
     paths = [strategy.plan(structure, params).tree.get_ssa_path() for _ in range(3)]
     assert paths[0] == paths[1] == paths[2]
+
+
+@pytest.mark.parametrize("lattice, noise_name", [("square", "bit_flip"), ("hexagonal", "depolarizing"),
+                                                 ("kagome", "biased"), ("triangular", "independent_xz")])
+def test_batched_decoding_equals_one_at_a_time(catalog, lattice, noise_name):
+    """contract_batch (a leading batch axis) gives the one-at-a-time values to 1e-10 (issue 7)."""
+    code = catalog.build_code("surface", lattice, 4)
+    table = make_noise(noise_name, code.n, 0.1)
+    decoder = Decoder(code, table, catalog.strategy("exact"), {"search_time": 0, "max_repeats": 8})
+    assert decoder.strategy.batched
+    errors = sample_errors(table, np.random.default_rng(5), shots=12)
+    batched = decoder.decode_errors(errors)
+    for error, got in zip(errors, batched):
+        one = decoder.decode_error(error)
+        assert got.decision == one.decision and got.true_class == one.true_class
+        for a, b in zip(got.classes, one.classes):
+            assert a.log_prob == b.log_prob == -math.inf or a.log_prob == pytest.approx(b.log_prob, rel=1e-10)
+
+
+def test_a_batched_value_does_not_depend_on_its_batch_mates(catalog):
+    """Bit for bit: the arena groups instances into chunks of any size, results must not change."""
+    code = catalog.build_code("surface", "hexagonal", 4)
+    table = make_noise("depolarizing", code.n, 0.1)
+    decoder = Decoder(code, table, catalog.strategy("exact"), {"search_time": 0, "max_repeats": 8})
+    errors = sample_errors(table, np.random.default_rng(9), shots=7)
+    alone = decoder.decode_errors(errors[:1])[0]
+    together = decoder.decode_errors(errors)[0]
+    assert [c.log_prob for c in alone.classes] == [c.log_prob for c in together.classes]

@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import abc
 import math
-from collections.abc import Mapping
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass, field
 from typing import Any, ClassVar
 
@@ -111,6 +111,19 @@ class Strategy(abc.ABC):
     @abc.abstractmethod
     def contract(self, plan: Any, network: DecodingNetwork) -> Estimate:
         """Contract one network's arrays with a plan made for its structure."""
+
+    def contract_batch(self, plan: Any, networks: Sequence[DecodingNetwork]) -> list[Estimate]:
+        """Contract many array sets of one structure; one Estimate per network, in order.
+
+        Strategies that can do better than one at a time (a leading batch axis,
+        batched matrix products and SVDs) override this; the default loops.
+        """
+        return [self.contract(plan, network) for network in networks]
+
+    @property
+    def batched(self) -> bool:
+        """True when this strategy overrides :meth:`contract_batch`."""
+        return type(self).contract_batch is not Strategy.contract_batch
 
     def cost(self, structure: NetworkStructure, params: Mapping[str, Any]) -> dict[str, float] | None:
         """What contracting this structure with these params would cost, from the structure alone.

@@ -83,6 +83,8 @@ def run_chunk(chunk: Chunk, plugins: PluginSpec = (), memory_limit: float | None
     missing = _missing_strategy(runner.catalog, chunk)
     if missing:
         return [(unit, failed_row(missing)) for unit in chunk.instances]
+    if runner.can_batch(chunk):
+        return runner.run_batch(chunk)
     return [(unit, runner.run(chunk, unit)) for unit in chunk.instances]
 
 

@@ -38,6 +38,7 @@ class _Worker:
     chunk: Chunk | None = None
     remaining: deque | None = None
     task_started: float | None = None
+    units_started: int = 1  # units the worker is working on at once (a batch)
 
 
 class LocalPool:
@@ -103,14 +104,14 @@ class LocalPool:
                     self._lost(w, pool, queue, on_result, self._death_reason(w))
                     continue
                 if kind == "start":
-                    w.task_started = time.monotonic()
+                    w.task_started, w.units_started = time.monotonic(), row or 1
                 else:
                     on_result(w.chunk, instance, row)
                     w.remaining.popleft()
                     w.task_started = time.monotonic()
                     if not w.remaining:
                         w.chunk = w.remaining = None
-            elif time.monotonic() - w.task_started > self.time_limit:
+            elif time.monotonic() - w.task_started > self.time_limit * w.units_started:
                 self._lost(w, pool, queue, on_result, f"time limit exceeded ({self.time_limit:g} s)")
 
     def _lost(self, w: _Worker, pool: list[_Worker], queue: deque, on_result: ResultHandler, reason: str) -> None:
@@ -173,8 +174,13 @@ def _worker_main(conn: Connection, memory_limit: float | None) -> None:
         chunk = conn.recv()
         if chunk is None:
             return
+        if runner.can_batch(chunk):  # one batched contraction; the time limit scales with its size
+            conn.send(("start", chunk.instances[0], len(chunk.instances)))
+            for instance, row in runner.run_batch(chunk):
+                conn.send(("result", instance, row))
+            continue
         for instance in chunk.instances:
-            conn.send(("start", instance, None))
+            conn.send(("start", instance, 1))
             conn.send(("result", instance, runner.run(chunk, instance)))
 
 

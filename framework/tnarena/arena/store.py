@@ -50,14 +50,14 @@ CREATE TABLE IF NOT EXISTS results (
     syndrome TEXT, classes TEXT, log_probs TEXT, decision TEXT, true_class TEXT, logical_failure INTEGER,
     contract_seconds REAL, decode_seconds REAL, plan_seconds REAL,
     flops REAL, intermediate_bytes REAL, traced_peak_bytes REAL, discarded_weight REAL,
-    worker INTEGER, finished REAL NOT NULL, profile TEXT,
+    worker INTEGER, finished REAL NOT NULL, profile TEXT, batch INTEGER,
     PRIMARY KEY (point_id, setting_id, instance));
 """
 
 #: What a worker reports for a task (besides point, setting, instance).
 RESULT_COLUMNS = ("status", "reason", "syndrome", "classes", "log_probs", "decision", "true_class", "logical_failure",
                   "contract_seconds", "decode_seconds", "plan_seconds", "flops", "intermediate_bytes",
-                  "traced_peak_bytes", "discarded_weight", "worker", "profile")
+                  "traced_peak_bytes", "discarded_weight", "worker", "profile", "batch")
 
 
 class Store:
@@ -74,9 +74,10 @@ class Store:
             self.db.execute("PRAGMA journal_mode=WAL")
             self.db.execute("PRAGMA synchronous=NORMAL")  # WAL + NORMAL: durable across a killed process
             self.db.executescript(SCHEMA)
-            for table, column in (("plans", "choice"), ("results", "profile")):  # databases made before them
+            for table, column, kind in (("plans", "choice", "TEXT"), ("results", "profile", "TEXT"),
+                                        ("results", "batch", "INTEGER")):  # databases made before them
                 if column not in {r[1] for r in self.db.execute(f"PRAGMA table_info({table})")}:
-                    self.db.execute(f"ALTER TABLE {table} ADD COLUMN {column} TEXT")
+                    self.db.execute(f"ALTER TABLE {table} ADD COLUMN {column} {kind}")
         except sqlite3.DatabaseError as exc:
             raise TnarenaError(f"{path!r} is not a tnarena study database ({exc}); give another --db path.") from None
 

@@ -113,6 +113,39 @@ class TaskRunner:
                 return failed_row(f"memory limit exceeded ({exc.__cause__ or exc})")
             return failed_row(str(exc) if isinstance(exc, PluginError) else f"{type(exc).__name__}: {exc}")
 
+    def can_batch(self, chunk: Chunk) -> bool:
+        """Whether this decode chunk goes through the strategy's batched contraction."""
+        if chunk.kind != "decode" or chunk.setting.kind == "baseline":
+            return False  # a batch of one goes this way too: a value never depends on its batch-mates
+        try:
+            decoder, _ = self._decoder(chunk)
+        except Exception:  # noqa: BLE001 - run() reports it unit by unit
+            return False
+        return isinstance(decoder, Decoder) and decoder.strategy.batched
+
+    def run_batch(self, chunk: Chunk) -> list[tuple[int, dict[str, Any]]]:
+        """Decode every instance of the chunk in one batched contraction; a row per instance."""
+        decoder, plan_seconds = self._decoder(chunk)
+        _, table = self._code(chunk)
+        errors = np.stack([sample_instance_error(chunk.seed, chunk.point, i, table) for i in chunk.instances])
+        try:
+            start = time.perf_counter()
+            results = decoder.decode_errors(errors)
+            each = (time.perf_counter() - start) / len(errors)
+        except Exception as exc:  # noqa: BLE001 - the batch failed: say why for each instance
+            if isinstance(exc, MemoryError) or isinstance(exc.__cause__, MemoryError):
+                return [(i, failed_row(f"memory limit exceeded ({exc.__cause__ or exc})")) for i in chunk.instances]
+            reason = str(exc) if isinstance(exc, PluginError) else f"{type(exc).__name__}: {exc}"
+            return [(i, failed_row(reason)) for i in chunk.instances]
+        rows = []
+        for k, (instance, result) in enumerate(zip(chunk.instances, results)):
+            row = self._row(result, each, plan_seconds if k == 0 else 0.0, None)
+            row["batch"] = len(errors)
+            if instance < chunk.trace_memory:
+                row["traced_peak_bytes"] = traced_peak(decoder, result)
+            rows.append((instance, row))
+        return rows
+
     def _decoder(self, chunk: Chunk) -> tuple[Decoder, float]:
         """The cached decoder and the time spent planning here (0 when the plan came with the chunk)."""
         key = self._key(chunk)
@@ -185,8 +218,15 @@ class TaskRunner:
                     "true_class": class_label(result.true_class), "logical_failure": int(bool(result.failed)),
                     "contract_seconds": decode_seconds, "decode_seconds": decode_seconds,
                     "plan_seconds": plan_seconds, "profile": profile, "worker": os.getpid()}
+        row = self._row(result, decode_seconds, plan_seconds, profile)
+        if instance < chunk.trace_memory:
+            row["traced_peak_bytes"] = traced_peak(decoder, result)
+        return row
+
+    @staticmethod
+    def _row(result, decode_seconds: float, plan_seconds: float, profile: str | None) -> dict[str, Any]:
         stats = [c.stats for c in result.classes]
-        row = {
+        return {
             "status": "ok",
             "syndrome": syndrome_hex(result.syndrome),
             "classes": [c.label for c in result.classes],
@@ -203,9 +243,6 @@ class TaskRunner:
             "profile": profile,
             "worker": os.getpid(),
         }
-        if instance < chunk.trace_memory:
-            row["traced_peak_bytes"] = traced_peak(decoder, result)
-        return row
 
 
 def syndrome_hex(syndrome: np.ndarray) -> str:

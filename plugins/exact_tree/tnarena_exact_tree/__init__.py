@@ -27,6 +27,9 @@ from tnarena.network import DecodingNetwork, NetworkStructure
 from tnarena.strategy import Estimate, Parameter, Strategy
 
 _WARNED = False
+#: Elements of the largest batched intermediate: batches are split so as not to exceed it
+#: (past it the batch axis no longer saves time: measured in benchmarks/README.md).
+BATCH_ELEMENTS = 2.0**18
 
 
 def kahypar_available() -> bool:
@@ -39,6 +42,7 @@ class ExactPlan:
 
     tree: Any  # cotengra.ContractionTree, or None when there is nothing to contract
     qubit_nodes: list[int]
+    inputs: list[tuple[int, ...]]  # generator ids each qubit array is indexed by (hyperedge einsum)
     threads: int
     flops: float
     largest_intermediate: float
@@ -71,7 +75,7 @@ class ExactTree(Strategy):
 
         inputs, qubit_nodes = structure.hyperedges()
         if not inputs:
-            return ExactPlan(None, [], params["threads"], 0.0, 1.0, 0.0, "none")
+            return ExactPlan(None, [], [], params["threads"], 0.0, 1.0, 0.0, "none")
         method = _choose_method(params["method"])
         size_dict = {g: 2 for term in inputs for g in term}
         if method == "greedy" or len(inputs) <= 2:
@@ -109,6 +113,7 @@ class ExactTree(Strategy):
         return ExactPlan(
             tree=tree,
             qubit_nodes=qubit_nodes,
+            inputs=[tuple(term) for term in inputs],
             threads=params["threads"],
             flops=float(tree.contraction_cost()),
             largest_intermediate=largest,
@@ -145,6 +150,24 @@ class ExactTree(Strategy):
         value = float(np.abs(mantissa))
         log_value = -math.inf if value == 0.0 else math.log(value) + float(exponent) * math.log(10.0)
         return Estimate(log_value, stats)
+
+    def contract_batch(self, plan: ExactPlan, networks) -> list[Estimate]:
+        """All networks at once: a leading batch axis on every array, one batched product per tree step."""
+        from tnarena_exact_tree.batched import contract_batch
+
+        group = max(1, int(BATCH_ELEMENTS // max(plan.largest_intermediate, 1.0)))
+        if plan.tree is None or not networks or group == 1:  # large intermediates: the batch axis buys nothing
+            return [self.contract(plan, net) for net in networks]
+        stats = {"flops": plan.flops, "width": plan.width}
+        path = plan.tree.get_ssa_path()
+        out = []
+        with _blas_threads(plan.threads):
+            for at in range(0, len(networks), group):
+                part = networks[at:at + group]
+                arrays = [np.stack([net.arrays[q] for net in part]) for q in plan.qubit_nodes]
+                batch_stats = stats | {"largest_intermediate": plan.largest_intermediate * len(part)}
+                out += [Estimate(float(v), dict(batch_stats)) for v in contract_batch(plan.inputs, path, arrays)]
+        return out
 
 
 @contextmanager
