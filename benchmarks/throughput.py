@@ -1,0 +1,105 @@
+"""Throughput: decodes per second one at a time and batched, the achieved flop rate, scaling in n.
+
+Prints three tables, every ratio measured side by side in this run:
+
+1. square-lattice planar code, bit flip p = 0.1, size 9 (default): sweep (chi 8) and exact,
+   decodes per second one at a time (Decoder.decode_error) and batched
+   (Decoder.decode_errors, batches of 64 and 256), and the batched/one ratio;
+2. the batched sweep's flop rate (its own flop count over its time) against numpy's
+   matrix-product rate measured here on one thread, at the matrix sizes the sweep uses;
+3. time per decode against the number of qubits at fixed chi for sizes 5..25, with the
+   fitted exponent a of t ~ n^a.
+
+Usage: python benchmarks/throughput.py [--size 9] [--chi 8] [--decodes 256] [--sizes 5 9 13 17 21 25]
+"""
+
+from __future__ import annotations
+
+import argparse
+import time
+
+import numpy as np
+from threadpoolctl import threadpool_limits
+
+from tnarena.catalog import load_catalog
+from tnarena.decode import Decoder
+from tnarena.noise import make_noise, sample_errors
+
+
+def rate(decoder: Decoder, errors: np.ndarray, batch: int | None) -> tuple[float, float]:
+    """(decodes per second, total flops reported) over ``errors``; batch None: one at a time."""
+    flops = 0.0
+    start = time.perf_counter()
+    if batch is None:
+        results = [decoder.decode_error(e) for e in errors]
+    else:
+        results = [r for at in range(0, len(errors), batch) for r in decoder.decode_errors(errors[at:at + batch])]
+    seconds = time.perf_counter() - start
+    for r in results:
+        flops += sum(c.stats.get("flops", 0.0) for c in r.classes)
+    return len(errors) / seconds, flops / seconds
+
+
+def matmul_rate(n: int, repeats: int = 200) -> float:
+    """Multiply-adds per second of numpy's n x n matrix product on this thread."""
+    a = np.random.default_rng(0).normal(size=(n, n))
+    a @ a
+    start = time.perf_counter()
+    for _ in range(repeats):
+        a @ a
+    return repeats * n**3 / (time.perf_counter() - start)
+
+
+def main() -> None:
+    p = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
+    p.add_argument("--size", type=int, default=9)
+    p.add_argument("--chi", type=int, default=8)
+    p.add_argument("--decodes", type=int, default=256)
+    p.add_argument("--sizes", type=int, nargs="+", default=[5, 9, 13, 17, 21, 25])
+    args = p.parse_args()
+    catalog = load_catalog()
+    code = catalog.build_code("surface", "square", args.size)
+    table = make_noise("bit_flip", code.n, 0.1)
+    errors = sample_errors(table, np.random.default_rng(1), shots=args.decodes)
+    settings = [("sweep", {"chi": args.chi}), ("exact", {"search_time": 1.0})]
+    print(f"square planar code d = {args.size} (n = {code.n}), bit flip p = 0.1, {args.decodes} decodes, one BLAS thread")
+    print(f"{'strategy':<22}{'batched?':>9}{'one/s':>10}{'batch 64/s':>12}{'batch 256/s':>13}{'x64':>7}{'x256':>7}")
+    flop_rates = {}
+    with threadpool_limits(limits=1, user_api="blas"):
+        for name, params in settings:
+            decoder = Decoder(code, table, catalog.strategy(name), params)
+            decoder.decode_errors(errors[:2])  # warm caches
+            one, _ = rate(decoder, errors, None)
+            b64, _ = rate(decoder, errors, 64)
+            b256, flops256 = rate(decoder, errors, 256)
+            flop_rates[name] = flops256
+            label = f"{name}({','.join(f'{k}={v}' for k, v in params.items())})"
+            print(f"{label:<22}{str(decoder.strategy.batched):>9}{one:>10.1f}{b64:>12.1f}{b256:>13.1f}"
+                  f"{b64 / one:>7.2f}{b256 / one:>7.2f}")
+        print()
+        print("flop rate of the batched contraction against numpy's matrix product on this thread:")
+        for n in (2 * args.chi, 4 * args.chi, 256):
+            print(f"  numpy {n} x {n} @ {n} x {n}: {matmul_rate(n) / 1e9:.2f} G multiply-adds/s")
+        for name, value in flop_rates.items():
+            print(f"  {name} batched (its own flop count / time): {value / 1e9:.3f} G multiply-adds/s")
+        print()
+        print(f"time per decode against n (sweep chi = {args.chi}, one at a time and batched by 64):")
+        ns, single, batched = [], [], []
+        for d in args.sizes:
+            code_d = catalog.build_code("surface", "square", d)
+            table_d = make_noise("bit_flip", code_d.n, 0.1)
+            errs = sample_errors(table_d, np.random.default_rng(2), shots=64)
+            decoder = Decoder(code_d, table_d, catalog.strategy("sweep"), {"chi": args.chi})
+            one, _ = rate(decoder, errs[:16], None)
+            many, _ = rate(decoder, errs, 64)
+            ns.append(code_d.n)
+            single.append(1e3 / one)
+            batched.append(1e3 / many)
+            print(f"  d = {d:>2}  n = {code_d.n:>5}  {1e3 / one:>9.2f} ms one at a time  {1e3 / many:>9.2f} ms batched")
+        for label, times in (("one at a time", single), ("batched", batched)):
+            slope = np.polyfit(np.log(ns), np.log(times), 1)[0]
+            print(f"  fitted exponent a in t ~ n^a ({label}): {slope:.2f}")
+
+
+if __name__ == "__main__":
+    main()
