@@ -42,7 +42,7 @@ def contract_batch(inputs: Sequence[tuple[int, ...]], ssa_path: Sequence[tuple[i
         next_id += 1
     total = np.ones_like(log_scale)
     for array, _ in tensors.values():  # what is left: scalars (or pieces no merge joined)
-        total = total * array.reshape(array.shape[0], -1).sum(axis=1)
+        total = total * np.ascontiguousarray(array).reshape(array.shape[0], -1).sum(axis=1)
     with np.errstate(divide="ignore"):
         return log_scale + np.log(np.abs(total))
 
@@ -54,7 +54,18 @@ def _sum_private(array: np.ndarray, term: tuple[int, ...], remaining: Counter):
         return array, term
     for ix in (ix for ix in term if remaining[ix] == 1):
         remaining[ix] = 0
-    return array.sum(axis=tuple(axes)), tuple(ix for ix in term if remaining[ix] > 0)
+    return _sum_axes(array, axes), tuple(ix for ix in term if remaining[ix] > 0)
+
+
+def _sum_axes(array: np.ndarray, axes: list[int]) -> np.ndarray:
+    """Sum over ``axes`` the same way for every batch element, whatever the batch size.
+
+    The summed axes are moved last and flattened, so each element is one contiguous
+    row summed alone (numpy's pairwise order then cannot depend on the batch shape).
+    """
+    keep = [a for a in range(array.ndim) if a not in axes]
+    moved = np.ascontiguousarray(array.transpose(keep + list(axes)))
+    return moved.reshape([array.shape[a] for a in keep] + [-1]).sum(axis=-1)
 
 
 def _merge(a: np.ndarray, ia: tuple[int, ...], b: np.ndarray, ib: tuple[int, ...], remaining: Counter):
@@ -82,7 +93,7 @@ def _sum_private_after(x: np.ndarray, ix: tuple[int, ...], other: tuple[int, ...
     axes = [1 + p for p, i in enumerate(ix) if i not in other and remaining[i] == 0]
     if not axes:
         return x, ix
-    return x.sum(axis=tuple(axes)), tuple(i for i in ix if i in other or remaining[i] > 0)
+    return _sum_axes(x, axes), tuple(i for i in ix if i in other or remaining[i] > 0)
 
 
 def _normalised(array: np.ndarray, log_scale: np.ndarray) -> np.ndarray:
