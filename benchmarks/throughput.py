@@ -4,7 +4,9 @@ Prints three tables, every ratio measured side by side in this run:
 
 1. square-lattice planar code, bit flip p = 0.1, size 9 (default): sweep (chi 8) and exact,
    decodes per second one at a time (Decoder.decode_error) and batched
-   (Decoder.decode_errors, batches of 64 and 256), and the batched/one ratio;
+   (Decoder.decode_errors, batches of 64 and 256), and the batched/one ratio, by wall and by
+   CPU time; then the contraction alone (networks per CPU second, contract against
+   contract_batch on the same networks, building them not counted);
 2. the batched sweep's flop rate (its own flop count over its time) against numpy's
    matrix-product rate measured here on one thread, at the matrix sizes the sweep uses;
 3. time per decode against the number of qubits at fixed chi for sizes 5..25, with the
@@ -22,22 +24,48 @@ import numpy as np
 from threadpoolctl import threadpool_limits
 
 from tnarena.catalog import load_catalog
-from tnarena.decode import Decoder
+from tnarena.decode import Decoder, logical_classes
 from tnarena.noise import make_noise, sample_errors
 
 
+CPU_RATES: dict[tuple[str, int | None], float] = {}  # (strategy, batch) -> decodes per CPU second
+
+
 def rate(decoder: Decoder, errors: np.ndarray, batch: int | None) -> tuple[float, float]:
-    """(decodes per second, total flops reported) over ``errors``; batch None: one at a time."""
+    """(decodes per second, total flops reported) over ``errors``; batch None: one at a time.
+    Decodes per CPU second (this process) go to CPU_RATES: the machine may be shared."""
     flops = 0.0
-    start = time.perf_counter()
+    start, cpu = time.perf_counter(), time.process_time()
     if batch is None:
         results = [decoder.decode_error(e) for e in errors]
     else:
         results = [r for at in range(0, len(errors), batch) for r in decoder.decode_errors(errors[at:at + batch])]
     seconds = time.perf_counter() - start
+    CPU_RATES[(decoder.strategy.name, batch)] = len(errors) / (time.process_time() - cpu)
     for r in results:
         flops += sum(c.stats.get("flops", 0.0) for c in r.classes)
     return len(errors) / seconds, flops / seconds
+
+
+def contraction_rates(decoder: Decoder, errors: np.ndarray, batch: int) -> tuple[float, float]:
+    """Networks contracted per CPU second, one at a time (contract) and batched (contract_batch), on
+    the networks of every non-zero class of ``errors``: the contraction alone, without building them."""
+    networks = []
+    for error in errors:
+        pure = decoder.pure_error(decoder.code.syndrome(error))
+        for cls in logical_classes(decoder.code.k):
+            network = decoder.builder.network(pure, cls)
+            if not network.is_zero:
+                networks.append(network)
+    strategy, plan = decoder.strategy, decoder.plan
+    cpu = time.process_time()
+    for network in networks:
+        strategy.contract(plan, network)
+    one = len(networks) / (time.process_time() - cpu)
+    cpu = time.process_time()
+    for at in range(0, len(networks), batch):
+        strategy.contract_batch(plan, networks[at:at + batch])
+    return one, len(networks) / (time.process_time() - cpu)
 
 
 def matmul_rate(n: int, repeats: int = 200) -> float:
@@ -76,6 +104,11 @@ def main() -> None:
             label = f"{name}({','.join(f'{k}={v}' for k, v in params.items())})"
             print(f"{label:<22}{str(decoder.strategy.batched):>9}{one:>10.1f}{b64:>12.1f}{b256:>13.1f}"
                   f"{b64 / one:>7.2f}{b256 / one:>7.2f}")
+            c1, c64, c256 = (CPU_RATES[(name, b)] for b in (None, 64, 256))
+            print(f"{'  by CPU time':<22}{'':>9}{c1:>10.1f}{c64:>12.1f}{c256:>13.1f}{c64 / c1:>7.2f}{c256 / c1:>7.2f}")
+            n1, n64 = contraction_rates(decoder, errors[:64], 2 * 64)
+            print(f"{'  contraction alone':<22}{'':>9}{n1:>10.1f}{n64:>12.1f}{'':>13}{n64 / n1:>7.2f}"
+                  "   (networks per CPU second, batches of 2 x 64 networks)")
         print()
         print("flop rate of the batched contraction against numpy's matrix product on this thread:")
         for n in (2 * args.chi, 4 * args.chi, 256):
