@@ -53,7 +53,7 @@ def broken(path, value):
     (("samples",), 0, "samples = 0; give at least 1"),
     (("time_limit",), -2, "time_limit = -2 s; give a positive"),
     (("memory_limit",), 8, "memory_limit = 8 MiB is too small"),
-    (("codes", 0, "family"), "toric_donut", "codes[0]: code family 'toric_donut' is unknown; known: color_666"),
+    (("codes", 0, "family"), "toric_donut", "codes[0]: code family 'toric_donut' is unknown; known: color_488, color_666"),
     (("codes", 0, "lattices"), ["square", "penrose"], "lattice 'penrose' is unknown; known: delaunay"),
     (("codes", 0, "sizes"), [3, 1], "codes[0]: sizes holds 1; give integers >= 2"),
     (("codes", 0, "depth"), 2, "codes[0]: unknown key 'depth'"),

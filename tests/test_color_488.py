@@ -19,7 +19,7 @@ from reference import css_group_sum, gf2_rank, group_sum, span_elements
 from test_code_zoo import _check_classes
 from tnarena.errors import TnarenaError
 
-FAMILY = "color_square_octagon"
+FAMILY = "color_488"
 
 
 def _parts(code) -> tuple[np.ndarray, np.ndarray]:

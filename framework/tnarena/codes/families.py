@@ -132,7 +132,7 @@ CODE_FAMILIES: dict[str, CodeFamily] = {
     for f in (
         CodeFamily("surface", "planar surface code on any lattice (qubits on edges), k = 1, both distances >= size", _surface),
         CodeFamily("color_666", "6.6.6 color code on a triangular patch (size = odd distance)", _color_666),
-        CodeFamily("color_square_octagon", "4.8.8 color code on a triangular patch (size = odd distance), n = (size^2 - 1) / 2 + size, k = 1", _color_488),
+        CodeFamily("color_488", "4.8.8 color code on a triangular patch (size = odd distance), n = (size^2 - 1) / 2 + size, k = 1", _color_488),
         CodeFamily("rotated_surface", "rotated square-lattice surface code, n = size^2, k = 1, both distances = size", _rotated_surface),
         CodeFamily("xzzx", "rotated XZZX surface code (Hadamard on every other qubit), n = size^2, k = 1, distance = size", _xzzx),
         CodeFamily("subsystem_surface", "subsystem surface code: weight-3 gauge triangles, weight-6 stabilizers, n = 3 size^2 - 2 size, distance = size", _subsystem_surface),
