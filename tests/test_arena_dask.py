@@ -49,7 +49,7 @@ def test_local_pool_and_a_two_worker_dask_cluster_store_identical_results(catalo
 
     Each study makes its own plans, so they must not depend on time (EXACT) or on the process.
     """
-    run(catalog, SMALL, tmp_path / "local.db", LocalPool, workers=1)
+    run(catalog, SMALL, tmp_path / "local.db", LocalPool, workers=1, chunk_size=2)  # same chunks: same batches
     _, outcome = run(catalog, SMALL, tmp_path / "dask.db", DaskPool, workers=2, chunk_size=2)
     local, dask = results(tmp_path / "local.db"), results(tmp_path / "dask.db")
     assert len(local) == 8 * 3 * 3 and all(r[3] == "ok" for r in local)

@@ -77,8 +77,19 @@ def test_every_setting_sees_the_same_seeded_errors(catalog, small_db):
 
 
 def test_one_and_two_workers_store_identical_results(catalog, small_db, tmp_path):
+    """Bit for bit: same plans, same arrays, same chunks (so the same batches for batched strategies)."""
+    run(catalog, SMALL, tmp_path / "two.db", workers=2)
+    assert results(tmp_path / "two.db") == results(small_db)
+
+
+def test_other_chunk_sizes_change_values_only_within_rounding(catalog, small_db, tmp_path):
+    """Chunks are a strategy's batches; a batched sweep keeps one bond count per batch, so values may
+    move in the last bits (never past the cutoff), while decisions and exact values do not."""
     run(catalog, SMALL, tmp_path / "two.db", workers=2, chunk_size=2)
-    assert results(tmp_path / "two.db") == results(small_db)  # bit for bit: same plans, same arrays
+    for a, b in zip(results(tmp_path / "two.db"), results(small_db)):
+        assert a[:5] == b[:5] and a[6:] == b[6:]
+        for x, y in zip(json.loads(a[5]), json.loads(b[5])):
+            assert x == y or abs(x - y) <= 1e-12 * max(1.0, abs(y))
 
 
 def test_exact_reference_gives_zero_error_and_sweep_converges(catalog, small_db):

@@ -115,8 +115,8 @@ class TaskRunner:
 
     def can_batch(self, chunk: Chunk) -> bool:
         """Whether this decode chunk goes through the strategy's batched contraction."""
-        if chunk.kind != "decode" or chunk.setting.kind == "baseline":
-            return False  # a batch of one goes this way too: a value never depends on its batch-mates
+        if chunk.kind != "decode" or chunk.setting.kind == "baseline" or chunk.profile:
+            return False  # (profiles are taken one decode at a time; a batch of one goes the batched way)
         try:
             decoder, _ = self._decoder(chunk)
         except Exception:  # noqa: BLE001 - run() reports it unit by unit
