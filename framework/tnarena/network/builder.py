@@ -145,6 +145,7 @@ class NetworkBuilder:
             node_bonds=tuple(tuple(b) for b in gen_bonds) + tuple(qubit_bonds),
         )
         self._copies = tuple(copy_tensor(len(b)) for b in gen_bonds)
+        self._zero_arrays: tuple[np.ndarray, ...] | None = None  # built on the first impossible class
         self._groups = _group_by_degree(nodes, offset, eff, table)
         self._constant = _group_by_degree(constants, -1, eff, table)
 
@@ -182,18 +183,22 @@ class NetworkBuilder:
             log_scale += float(np.log(peak).sum())
             if target is None:
                 continue
-            vals = vals / peak[:, None]
-            shape = (2,) * group.degree
-            for node, row in zip(group.nodes, vals):
-                arrays[node] = row.reshape(shape)
+            block = (vals / peak[:, None]).reshape((-1,) + (2,) * group.degree)
+            for node, array in zip(group.nodes, list(block)):  # views, made by numpy's own iteration
+                arrays[node] = array
         return DecodingNetwork(self.structure, tuple(arrays), log_scale)
 
     def _zero(self, arrays: list) -> DecodingNetwork:
-        filled = tuple(
-            a if a is not None else np.zeros((2,) * self.structure.degree(i))
-            for i, a in enumerate(arrays)
-        )
-        return DecodingNetwork(self.structure, filled, -math.inf)
+        """An impossible class: log_scale -inf and zero qubit arrays (made once, shared, read-only)."""
+        if self._zero_arrays is None:
+            zeros = []
+            for i, a in enumerate(arrays):
+                if a is None:
+                    a = np.zeros((2,) * self.structure.degree(i))
+                    a.flags.writeable = False
+                zeros.append(a)
+            self._zero_arrays = tuple(zeros)
+        return DecodingNetwork(self.structure, self._zero_arrays, -math.inf)
 
 
 class _LinearSolver:
