@@ -42,6 +42,25 @@ def logical_classes(k: int) -> list[tuple[int, ...]]:
     return [tuple(c) for c in itertools.product((0, 1), repeat=2 * k)]
 
 
+def error_vector(code: PauliCode, error: np.ndarray) -> np.ndarray:
+    """``error`` as a flat uint8 symplectic vector, shape (2n,); refuses another length."""
+    error = np.asarray(error, dtype=np.uint8).reshape(-1)
+    if error.size != 2 * code.n:
+        raise TnarenaError(f"the error has {error.size} symplectic entries; the code needs 2n = {2 * code.n}.")
+    return error
+
+
+def relative_class(code: PauliCode, error: np.ndarray, pure: np.ndarray) -> tuple[int, ...]:
+    """Logical class (a_1, b_1, ...) of ``error`` relative to ``pure`` (both shape (2n,)).
+
+    a_i is the symplectic product with ``logicals[i, 1]`` and b_i with ``logicals[i, 0]``,
+    the order of :func:`logical_classes`.
+    """
+    diff = np.asarray(error, dtype=np.uint8) ^ np.asarray(pure, dtype=np.uint8)
+    rows = code.logicals[:, ::-1].reshape(-1, 2 * code.n)
+    return tuple(int(b) for b in symplectic_products(rows, diff)[:, 0])
+
+
 @dataclass
 class ClassResult:
     """One logical class: its label, ln P (natural log; -inf when impossible) and stats."""
@@ -136,12 +155,7 @@ class Decoder:
 
     def true_class(self, error: np.ndarray, pure: np.ndarray) -> tuple[int, ...]:
         """Logical class of ``error`` relative to the pure error of its syndrome."""
-        diff = np.asarray(error, dtype=np.uint8) ^ pure
-        out = []
-        for i in range(self.code.k):
-            out.append(int(symplectic_products(diff, self.code.logicals[i, 1])[0, 0]))  # X-bar part
-            out.append(int(symplectic_products(diff, self.code.logicals[i, 0])[0, 0]))  # Z-bar part
-        return tuple(out)
+        return relative_class(self.code, error, pure)
 
     def decode_syndrome(self, syndrome: np.ndarray) -> DecodeResult:
         pure = self.pure_error(syndrome)
@@ -149,11 +163,7 @@ class Decoder:
 
     def decode_error(self, error: np.ndarray) -> DecodeResult:
         """Decode the syndrome of a known error and record whether the decision is wrong."""
-        error = np.asarray(error, dtype=np.uint8).reshape(-1)
-        if error.size != 2 * self.code.n:
-            raise TnarenaError(
-                f"the error has {error.size} symplectic entries; the code needs 2n = {2 * self.code.n}."
-            )
+        error = error_vector(self.code, error)
         syndrome = self.code.syndrome(error)
         pure = self.pure_error(syndrome)
         return self._decode(syndrome, pure, self.true_class(error, pure))

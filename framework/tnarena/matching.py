@@ -27,10 +27,9 @@ import networkx as nx
 import numpy as np
 
 from tnarena.codes.core import PauliCode
-from tnarena.decode import SyndromeSolver
+from tnarena.decode import SyndromeSolver, error_vector, relative_class
 from tnarena.errors import TnarenaError
 from tnarena.noise import validate_table
-from tnarena.pauli import symplectic_products
 
 #: Flip probabilities are raised to at least _P_FLOOR before taking weights, so a
 #: qubit that never flips gets a large finite weight (about 708) instead of inf.
@@ -107,13 +106,8 @@ class MatchingDecoder:
         return self.syndromes.pure_error(syndrome)
 
     def true_class(self, error: np.ndarray, pure: np.ndarray) -> tuple[int, ...]:
-        """Logical class (a_1, b_1, ...) of ``error`` relative to ``pure``, both shape (2n,).
-
-        a_i is the commutation with Z-bar_i, b_i with X-bar_i (as in Decoder).
-        """
-        diff = np.asarray(error, dtype=np.uint8) ^ np.asarray(pure, dtype=np.uint8)
-        logs = self.code.logicals[:, ::-1].reshape(-1, 2 * self.code.n)  # Z-bar_0, X-bar_0, ...
-        return tuple(int(b) for b in symplectic_products(logs, diff)[:, 0])
+        """Logical class of ``error`` relative to ``pure``, in the convention of Decoder."""
+        return relative_class(self.code, error, pure)
 
     def correction(self, syndrome: np.ndarray) -> tuple[np.ndarray, float]:
         """Minimum-weight correction (shape (2n,), uint8) of a syndrome and its weight."""
@@ -132,11 +126,7 @@ class MatchingDecoder:
     def decode_error(self, error: np.ndarray) -> MatchingResult:
         """Match the syndrome of a known error (shape (2n,)) and record whether it failed."""
         start = time.perf_counter()
-        error = np.asarray(error, dtype=np.uint8).reshape(-1)
-        if error.size != 2 * self.code.n:
-            raise TnarenaError(
-                f"the error has {error.size} symplectic entries; the code needs 2n = {2 * self.code.n}."
-            )
+        error = error_vector(self.code, error)
         s = self.code.syndrome(error)
         pure = self.pure_error(s)
         return self._result(s, pure, self.true_class(error, pure), start)

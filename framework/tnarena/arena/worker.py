@@ -109,9 +109,7 @@ class TaskRunner:
         try:
             return self._decode(chunk, decoder, unit, plan_seconds)
         except Exception as exc:  # noqa: BLE001
-            if isinstance(exc, MemoryError) or isinstance(exc.__cause__, MemoryError):
-                return failed_row(f"memory limit exceeded ({exc.__cause__ or exc})")
-            return failed_row(str(exc) if isinstance(exc, PluginError) else f"{type(exc).__name__}: {exc}")
+            return failed_row(failure_reason(exc))
 
     def can_batch(self, chunk: Chunk) -> bool:
         """Whether this decode chunk goes through the strategy's batched contraction."""
@@ -133,10 +131,7 @@ class TaskRunner:
             results = decoder.decode_errors(errors)
             each = (time.perf_counter() - start) / len(errors)
         except Exception as exc:  # noqa: BLE001 - the batch failed: say why for each instance
-            if isinstance(exc, MemoryError) or isinstance(exc.__cause__, MemoryError):
-                return [(i, failed_row(f"memory limit exceeded ({exc.__cause__ or exc})")) for i in chunk.instances]
-            reason = str(exc) if isinstance(exc, PluginError) else f"{type(exc).__name__}: {exc}"
-            return [(i, failed_row(reason)) for i in chunk.instances]
+            return [(i, failed_row(failure_reason(exc))) for i in chunk.instances]
         rows = []
         for k, (instance, result) in enumerate(zip(chunk.instances, results)):
             row = self._row(result, each, plan_seconds if k == 0 else 0.0, None)
@@ -276,6 +271,13 @@ def _pickled(plan: Any) -> bytes | None:
         return pickle.dumps(plan, protocol=pickle.HIGHEST_PROTOCOL)
     except Exception:  # noqa: BLE001 - e.g. a plan holding a lambda or an open handle
         return None
+
+
+def failure_reason(exc: Exception) -> str:
+    """What a failed decode's row says: the memory limit, a strategy's own message, or the exception."""
+    if isinstance(exc, MemoryError) or isinstance(exc.__cause__, MemoryError):
+        return f"memory limit exceeded ({exc.__cause__ or exc})"
+    return str(exc) if isinstance(exc, PluginError) else f"{type(exc).__name__}: {exc}"
 
 
 def failed_row(reason: str) -> dict[str, Any]:
