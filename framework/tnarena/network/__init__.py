@@ -1,6 +1,7 @@
 """The shared network builder and the decoding-network types."""
 
+from tnarena.network.batch import NetworkBatch
 from tnarena.network.builder import NetworkBuilder, copy_tensor
 from tnarena.network.structure import GENERATOR, QUBIT, DecodingNetwork, NetworkStructure
 
-__all__ = ["GENERATOR", "QUBIT", "DecodingNetwork", "NetworkBuilder", "NetworkStructure", "copy_tensor"]
+__all__ = ["GENERATOR", "QUBIT", "DecodingNetwork", "NetworkBatch", "NetworkBuilder", "NetworkStructure", "copy_tensor"]

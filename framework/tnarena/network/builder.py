@@ -22,19 +22,25 @@ For an error E and a logical class L the class probability is
 3. *Arrays* (per error and class): each qubit node gets the probabilities of
    the Pauli the incident generator variables produce, normalised to a
    largest entry of 1 with the logarithm of the factor carried in
-   ``log_scale``.
+   ``log_scale``. They depend on the error only through the node's two bits,
+   so the four normalised arrays of every node are tabulated once and each
+   error picks its rows: :meth:`NetworkBuilder.network_batch` does this for
+   many errors at once (numpy over a leading batch axis), and
+   :meth:`NetworkBuilder.network` is its batch of one.
 """
 
 from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 
 from tnarena import gf2
 from tnarena.codes.core import PauliCode
 from tnarena.errors import TnarenaError
+from tnarena.network.batch import NetworkBatch
 from tnarena.network.structure import GENERATOR, QUBIT, DecodingNetwork, NetworkStructure
 from tnarena.noise import validate_table
 from tnarena.pauli import column_of
@@ -80,7 +86,7 @@ class NetworkBuilder:
         n, gens = code.n, code.generators
         m = gens.shape[0]
         self._constraints = _constraint_rows(self.table)
-        self._constraints_f = self._constraints.astype(float)
+        self._constraints_t = self._constraints.T.astype(float)
         # float64 products of 0/1 matrices are exact here and far faster than int64 ones
         coupling = (self._constraints.astype(float) @ gens.T.astype(float)).astype(np.int64) % 2
         free = np.flatnonzero(~coupling.any(axis=0))
@@ -145,6 +151,10 @@ class NetworkBuilder:
             node_bonds=tuple(tuple(b) for b in gen_bonds) + tuple(qubit_bonds),
         )
         self._copies = tuple(copy_tensor(len(b)) for b in gen_bonds)
+        by_degree: dict[int, list[int]] = {}
+        for v, bonds_of in enumerate(gen_bonds):
+            by_degree.setdefault(len(bonds_of), []).append(v)
+        self._copy_blocks = [(np.array(vs), np.array([self._copies[v] for v in vs])) for vs in by_degree.values()]
         self._zero_arrays: tuple[np.ndarray, ...] | None = None  # built on the first impossible class
         self._groups = _group_by_degree(nodes, offset, eff, table)
         self._constant = _group_by_degree(constants, -1, eff, table)
@@ -154,51 +164,89 @@ class NetworkBuilder:
         """The network whose value times exp(log_scale) is P(E L G).
 
         error : shape (2n,), symplectic; logical_class : (a_1, b_1, ...) or None for L = I.
+        An impossible class gives log_scale -inf and zero qubit arrays.
         """
-        code = self.code
         base = np.asarray(error, dtype=np.uint8).reshape(-1)
-        if base.size != 2 * code.n:
+        if base.size != 2 * self.code.n:
             raise TnarenaError(
-                f"the error has {base.size} symplectic entries; the code needs 2n = {2 * code.n}."
+                f"the error has {base.size} symplectic entries; the code needs 2n = {2 * self.code.n}."
             )
-        if logical_class is not None:
-            base = base ^ code.logical_operator(logical_class)
-        arrays: list[np.ndarray | None] = list(self._copies) + [None] * (
-            self.structure.num_nodes - len(self._copies)
-        )
-        b = (self._constraints_f @ base).astype(np.int64) % 2
-        fixed = self._solver.solve(b)
-        if fixed is None:
-            return self._zero(arrays)
-        if fixed.size:
-            base = base ^ ((fixed.astype(float) @ self._fixed_gens_f).astype(np.int64) % 2).astype(np.uint8)
-        log_scale = self.log_norm
-        for group, target in ((self._constant, None), *((g, g) for g in self._groups)):
-            if group is None or group.size == 0:
-                continue
-            vals = group.values(base, code.n)
-            peak = vals.max(axis=1)
-            if (peak <= 0).any():
-                return self._zero(arrays)
-            log_scale += float(np.log(peak).sum())
-            if target is None:
-                continue
-            block = (vals / peak[:, None]).reshape((-1,) + (2,) * group.degree)
-            for node, array in zip(group.nodes, list(block)):  # views, made by numpy's own iteration
-                arrays[node] = array
-        return DecodingNetwork(self.structure, tuple(arrays), log_scale)
+        possible, log_scales, blocks = self._qubit_blocks(base[None, :], logical_class)
+        if not possible[0]:
+            return self._zero()
+        arrays = list(self._copies) + [None] * (self.structure.num_nodes - len(self._copies))
+        _place(arrays, [(nodes, block[:, 0]) for nodes, block in blocks])
+        return DecodingNetwork(self.structure, tuple(arrays), float(log_scales[0]))
 
-    def _zero(self, arrays: list) -> DecodingNetwork:
+    def network_batch(self, errors: np.ndarray,
+                      logical_class: tuple[int, ...] | None = None) -> tuple[NetworkBatch, np.ndarray]:
+        """The networks of many errors for one class: ``(batch of the possible ones, possible)``.
+
+        errors : shape (B, 2n), symplectic; logical_class as in :meth:`network`.
+        ``possible`` has shape (B,), bool; element j of the batch is
+        ``network(errors[i], logical_class)`` for the j-th i where ``possible[i]``
+        (the others are impossible: log_scale -inf).
+        """
+        n = self.code.n
+        errors = np.asarray(errors, dtype=np.uint8)
+        if errors.ndim != 2 or errors.shape[1] != 2 * n:
+            raise TnarenaError(
+                f"the errors have shape {errors.shape}; the code needs (B, 2n) = (B, {2 * n}): one "
+                "symplectic row per error."
+            )
+        possible, log_scales, blocks = self._qubit_blocks(errors, logical_class)
+        batch = log_scales.size
+        stacks: list = [None] * self.structure.num_nodes
+        shared = [(nodes, np.broadcast_to(copies[:, None], (len(nodes), batch) + copies.shape[1:]))
+                  for nodes, copies in self._copy_blocks]  # read-only, stride 0 on the batch axis
+        _place(stacks, shared + blocks)
+        return NetworkBatch(self.structure, tuple(stacks), log_scales), possible
+
+    def _qubit_blocks(self, errors: np.ndarray, logical_class: tuple[int, ...] | None
+                      ) -> tuple[np.ndarray, np.ndarray, list[tuple[np.ndarray, np.ndarray]]]:
+        """``(possible (B,), log_scales (P,), [(node ids (g,), arrays (g, P) + (2,) * degree), ...])``
+        for errors (B, 2n): the qubit arrays of the P possible elements, by degree group."""
+        n = self.code.n
+        base = errors if logical_class is None else errors ^ self.code.logical_operator(logical_class)
+        fixed, possible = self._solver.solve_many((base.astype(float) @ self._constraints_t).astype(np.int64) & 1)
+        rows = np.flatnonzero(possible)
+        if rows.size < possible.size:
+            base, fixed = base[rows], fixed[rows]
+        if fixed.shape[1]:
+            base = base ^ ((fixed.astype(float) @ self._fixed_gens_f).astype(np.int64) & 1).astype(np.uint8)
+        log_scales = np.full(rows.size, self.log_norm)
+        picks = []
+        for group in ([self._constant] if self._constant is not None else []) + self._groups:
+            at = group.table_rows(base, n)
+            log_scales += group.tables[1][at].sum(axis=1)
+            if group is not self._constant:
+                picks.append((group, at))
+        dead = np.isneginf(log_scales)  # a qubit's Pauli has probability 0 in every term
+        if dead.any():
+            possible[rows[dead]] = False
+            log_scales, picks = log_scales[~dead], [(g, at[~dead]) for g, at in picks]
+        shape = (log_scales.size,)
+        blocks = [(g.nodes, g.tables[0][at.T].reshape((g.size,) + shape + (2,) * g.degree)) for g, at in picks]
+        return possible, log_scales, blocks
+
+    def _zero(self) -> DecodingNetwork:
         """An impossible class: log_scale -inf and zero qubit arrays (made once, shared, read-only)."""
         if self._zero_arrays is None:
             zeros = []
-            for i, a in enumerate(arrays):
+            for i, a in enumerate(self._copies + (None,) * (self.structure.num_nodes - len(self._copies))):
                 if a is None:
                     a = np.zeros((2,) * self.structure.degree(i))
                     a.flags.writeable = False
                 zeros.append(a)
             self._zero_arrays = tuple(zeros)
         return DecodingNetwork(self.structure, self._zero_arrays, -math.inf)
+
+
+def _place(arrays: list, blocks) -> None:
+    """arrays[node] = the node's slice of its block, for every (node ids, block) pair."""
+    for nodes, block in blocks:
+        for node, array in zip(nodes, list(block)):  # views, made by numpy's own iteration
+            arrays[node] = array
 
 
 class _LinearSolver:
@@ -210,18 +258,24 @@ class _LinearSolver:
         reduced, pivots = gf2.row_reduce(aug, ncols=k)
         self.k = k
         self.pivots = np.array(pivots, dtype=int)
-        self.transform = reduced[:, k:].astype(float)  # exact: 0/1 entries, sums << 2^53
+        self.transform_t = reduced[:, k:].T.astype(float)  # exact: 0/1 entries, sums << 2^53
 
     def solve(self, b: np.ndarray) -> np.ndarray | None:
-        if self.transform.size == 0:
-            return np.zeros(self.k, dtype=np.uint8) if not np.asarray(b).any() else None
-        tb = (self.transform @ np.asarray(b, dtype=float)).astype(np.int64) % 2
+        """One solution x (shape (k,), uint8) for b (shape (r,)), or None if there is none."""
+        x, ok = self.solve_many(np.asarray(b).reshape(1, -1))
+        return x[0] if ok[0] else None
+
+    def solve_many(self, b: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Solutions for many right-hand sides b (shape (B, r)): ``(x (B, k) uint8, solvable (B,) bool)``.
+
+        Rows of x where ``solvable`` is False are meaningless.
+        """
+        b = np.asarray(b, dtype=float)
+        tb = (b @ self.transform_t).astype(np.int64) & 1
         rank = self.pivots.size
-        if tb[rank:].any():
-            return None
-        x = np.zeros(self.k, dtype=np.uint8)
-        x[self.pivots] = tb[:rank]
-        return x
+        x = np.zeros((b.shape[0], self.k), dtype=np.uint8)
+        x[:, self.pivots] = tb[:, :rank]
+        return x, ~tb[:, rank:].any(axis=1)
 
 
 @dataclass
@@ -239,10 +293,31 @@ class _DegreeGroup:
     def size(self) -> int:
         return int(self.qubits.size)
 
-    def values(self, base: np.ndarray, n: int) -> np.ndarray:
-        x = base[self.qubits][:, None] ^ self.flip_x
-        z = base[n + self.qubits][:, None] ^ self.flip_z
-        return np.take_along_axis(self.value, (2 * x + z).astype(np.intp), axis=1)
+    def table_rows(self, base: np.ndarray, n: int) -> np.ndarray:
+        """Row of :attr:`tables` each node takes for each error: base (B, 2n) -> shape (B, g).
+
+        A node's values depend on the error only through its two bits there (4 cases).
+        """
+        return (2 * base[:, self.qubits] + base[:, n + self.qubits]) + self._offsets
+
+    @cached_property
+    def _offsets(self) -> np.ndarray:
+        return 4 * np.arange(self.size, dtype=np.intp)
+
+    @cached_property
+    def tables(self) -> tuple[np.ndarray, np.ndarray]:
+        """``(normalised, log_peak)``, shapes (4 g, 2^degree) and (4 g,): for node j and error bits
+        (x, z), row 4 j + 2 x + z holds the node's values over the assignments divided by their
+        largest, and the log of that largest (-inf, and a zero row, where every value is 0)."""
+        bits = np.arange(4)
+        x = (bits[None, :, None] >> 1) ^ self.flip_x[:, None, :]  # (g, 4, 2^degree)
+        z = (bits[None, :, None] & 1) ^ self.flip_z[:, None, :]
+        vals = np.take_along_axis(self.value[:, None, :], (2 * x + z).astype(np.intp), axis=2)
+        peak = vals.max(axis=2, keepdims=True)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            normalised = np.where(peak > 0, vals / peak, 0.0)
+            log_peak = np.log(peak[..., 0])
+        return normalised.reshape(4 * self.size, -1), log_peak.reshape(-1)
 
 
 def _group_by_degree(nodes, offset, eff, table) -> list[_DegreeGroup] | _DegreeGroup | None:
