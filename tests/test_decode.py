@@ -56,3 +56,28 @@ def test_non_binary_syndrome_is_refused(decoder):
     s[0] = 2
     with pytest.raises(TnarenaError, match="only 0 and 1"):
         decoder.decode_syndrome(s)
+
+
+def test_decode_errors_refuses_rows_of_the_wrong_length(decoder):
+    with pytest.raises(TnarenaError, match=r"the code needs \(B, 2n\) = \(B, 30\)"):
+        decoder.decode_errors(np.zeros((4, 28), dtype=np.uint8))
+
+
+def test_batched_pure_errors_name_a_syndrome_no_error_has(catalog):
+    """With a redundant stabilizer g0 g1 its bit must equal s0 + s1 (mod 2); row 1 breaks that."""
+    from tnarena.codes.core import PauliCode
+    from tnarena.decode import SyndromeSolver
+
+    code = catalog.build_code("surface", "square", 3)
+    redundant = PauliCode(
+        name="redundant", qubit_positions=code.qubit_positions,
+        generators=np.vstack([code.generators, code.generators[0] ^ code.generators[1]]),
+        kinds=code.kinds + ("stabilizer",), logicals=code.logicals,
+    )
+    good = redundant.syndromes(np.eye(2 * code.n, dtype=np.uint8)[:2])
+    bad = good[1].copy()
+    bad[-1] ^= 1
+    solver = SyndromeSolver(redundant)
+    assert np.array_equal(symplectic_products(solver.pure_errors(good), redundant.stabilizers), good)
+    with pytest.raises(TnarenaError, match="no Pauli error has this syndrome.*in row 1"):
+        solver.pure_errors(np.stack([good[0], bad]))

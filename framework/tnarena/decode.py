@@ -56,9 +56,15 @@ def relative_class(code: PauliCode, error: np.ndarray, pure: np.ndarray) -> tupl
     a_i is the symplectic product with ``logicals[i, 1]`` and b_i with ``logicals[i, 0]``,
     the order of :func:`logical_classes`.
     """
-    diff = np.asarray(error, dtype=np.uint8) ^ np.asarray(pure, dtype=np.uint8)
+    row = relative_classes(code, np.reshape(error, (1, -1)), np.reshape(pure, (1, -1)))[0]
+    return tuple(int(b) for b in row)
+
+
+def relative_classes(code: PauliCode, errors: np.ndarray, pures: np.ndarray) -> np.ndarray:
+    """Row i: the class of ``errors[i]`` relative to ``pures[i]`` (both shape (B, 2n)); shape (B, 2k)."""
+    diff = np.asarray(errors, dtype=np.uint8) ^ np.asarray(pures, dtype=np.uint8)
     rows = code.logicals[:, ::-1].reshape(-1, 2 * code.n)
-    return tuple(int(b) for b in symplectic_products(rows, diff)[:, 0])
+    return symplectic_products(diff, rows)
 
 
 @dataclass
@@ -100,9 +106,7 @@ class SyndromeSolver:
 
     def __init__(self, code: PauliCode) -> None:
         self.code = code
-        stab, n = code.stabilizers, code.n
-        # syndrome_i = <g_i, E> = g_i,x . E_z + g_i,z . E_x, linear in E = [x | z]
-        self._solver = _LinearSolver(np.concatenate([stab[:, n:], stab[:, :n]], axis=1))
+        self._solver = _LinearSolver(code.syndrome_matrix)  # the syndrome is linear in E = [x | z]
 
     def pure_error(self, syndrome: np.ndarray) -> np.ndarray:
         """An error (shape (2n,)) with the given syndrome (shape (s,), 0/1)."""
@@ -112,15 +116,27 @@ class SyndromeSolver:
             raise TnarenaError(
                 f"the syndrome has {s.size} bits but the code has {expected} stabilizer generators."
             )
+        return self.pure_errors(s[None, :])[0]
+
+    def pure_errors(self, syndromes: np.ndarray) -> np.ndarray:
+        """Row i: an error with syndrome ``syndromes[i]``; shape (B, s) of 0/1 -> (B, 2n)."""
+        s = np.asarray(syndromes)
+        expected = self.code.stabilizers.shape[0]
+        if s.ndim != 2 or s.shape[1] != expected:
+            raise TnarenaError(
+                f"the syndromes have shape {s.shape}; the code needs (B, {expected}): one row of "
+                "bits per syndrome, one bit per stabilizer generator."
+            )
         if not np.isin(s, (0, 1)).all():
             raise TnarenaError("a syndrome holds only 0 and 1.")
-        error = self._solver.solve(s.astype(np.uint8))
-        if error is None:
+        errors, solvable = self._solver.solve_many(s.astype(np.uint8))
+        if not solvable.all():
             raise TnarenaError(
                 "no Pauli error has this syndrome (the stabilizer generators are dependent "
-                "and the syndrome breaks a relation between them); check the syndrome."
+                "and the syndrome breaks a relation between them); check the syndrome"
+                + ("." if s.shape[0] == 1 else f" in row {int(np.argmin(solvable))}.")
             )
-        return error
+        return errors
 
 
 class Decoder:
@@ -171,34 +187,46 @@ class Decoder:
     def decode_errors(self, errors: np.ndarray) -> list[DecodeResult]:
         """Decode many known errors (shape (B, 2n)) in one batched contraction of all their classes.
 
-        Uses the strategy's ``contract_batch`` (a loop for strategies without one).
-        Each class's ``seconds`` is the batch's contraction time divided by the
-        number of networks contracted (amortised).
+        Syndromes, pure errors, true classes and networks are computed for the whole
+        batch at once; the possible classes of every error go to the strategy's
+        ``contract_batch`` as one :class:`~tnarena.network.NetworkBatch` (a loop for
+        strategies without one). Each class's ``seconds`` is the batch's contraction
+        time divided by the number of networks contracted (amortised).
         """
-        errors = np.asarray(errors, dtype=np.uint8).reshape(len(errors), -1)
-        cases, networks, owners = [], [], []
-        for b, error in enumerate(errors):
-            syndrome = self.code.syndrome(error)
-            pure = self.pure_error(syndrome)
-            cases.append((syndrome, pure, self.true_class(error, pure)))
-            for c, cls in enumerate(logical_classes(self.code.k)):
-                network = self.builder.network(pure, cls)
-                if not network.is_zero:
-                    networks.append(network)
-                    owners.append((b, c))
+        code, count = self.code, len(errors)
+        errors = np.asarray(errors, dtype=np.uint8).reshape(count, -1)
+        syndromes = code.syndromes(errors)
+        pures = self.syndromes.pure_errors(syndromes)
+        true_classes = relative_classes(code, errors, pures)
+        classes = logical_classes(code.k)
+        # class-major: element c * B + b is error b in class c, the impossible ones left out
+        bases = np.concatenate([pures ^ code.logical_operator(cls) for cls in classes])
+        networks, possible = self.builder.network_batch(bases, None)
         start = time.perf_counter()
-        estimates = _call(self.strategy, "contract_batch", self.plan, networks) if networks else []
+        estimates = _call(self.strategy, "contract_batch", self.plan, networks) if len(networks) else []
         each = (time.perf_counter() - start) / max(len(networks), 1)
-        found = {owner: (est.log_value + net.log_scale, dict(est.stats))
-                 for owner, est, net in zip(owners, estimates, networks)}
+        if len(estimates) != len(networks):
+            raise PluginError(
+                f"strategy {self.strategy.name!r} returned {len(estimates)} estimates from contract_batch() "
+                f"for {len(networks)} networks; it must return one per network, in order."
+            )
+        found = np.flatnonzero(possible)
+        log_probs = np.full(possible.size, -math.inf)
+        log_probs[found] = np.array([est.log_value for est in estimates], dtype=float) + networks.log_scales
+        stats: list[dict | None] = [None] * possible.size
+        for at, est in zip(found, estimates):
+            stats[at] = est.stats
+        labels = [class_label(cls) for cls in classes]
         results = []
-        for b, (syndrome, pure, true_cls) in enumerate(cases):
-            classes = []
-            for c, cls in enumerate(logical_classes(self.code.k)):
-                log_prob, stats = found.get((b, c), (-math.inf, {}))
-                classes.append(ClassResult(cls, class_label(cls), log_prob, stats, each if (b, c) in found else 0.0))
-            best = max(classes, key=lambda r: r.log_prob)
-            results.append(DecodeResult(syndrome, classes, best.cls, true_cls, self.plan_seconds))
+        for b in range(count):
+            out = []
+            for c, cls in enumerate(classes):
+                got = stats[c * count + b]
+                out.append(ClassResult(cls, labels[c], float(log_probs[c * count + b]),
+                                       {} if got is None else dict(got), 0.0 if got is None else each))
+            best = max(out, key=lambda r: r.log_prob)
+            results.append(DecodeResult(syndromes[b], out, best.cls, tuple(int(v) for v in true_classes[b]),
+                                        self.plan_seconds))
         return results
 
     def class_log_probs(self, pure: np.ndarray) -> list[ClassResult]:

@@ -117,6 +117,10 @@ class Strategy(abc.ABC):
 
         Strategies that can do better than one at a time (a leading batch axis,
         batched matrix products and SVDs) override this; the default loops.
+        ``networks`` may be a :class:`~tnarena.network.NetworkBatch` (what
+        ``Decoder.decode_errors`` passes): a sequence of DecodingNetwork like any
+        other, whose ``stacks`` (one array per node, shape (B,) + (2,) * degree)
+        a batching strategy can use as they are instead of stacking the arrays itself.
         """
         return [self.contract(plan, network) for network in networks]
 

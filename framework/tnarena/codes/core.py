@@ -136,6 +136,24 @@ class PauliCode:
         """Syndrome of ``error`` (shape (2n,)) against the stabilizer generators, shape (s,)."""
         return symplectic_products(self.stabilizers, error)[:, 0]
 
+    def syndromes(self, errors: np.ndarray) -> np.ndarray:
+        """Syndromes of many errors: shape (B, 2n) -> (B, s), uint8, row i the syndrome of errors[i]."""
+        errors = np.asarray(errors)
+        if errors.ndim != 2 or errors.shape[1] != 2 * self.n:
+            raise TnarenaError(
+                f"the errors have shape {errors.shape}; the code needs (B, 2n) = (B, {2 * self.n}): one "
+                "symplectic row per error."
+            )
+        # float products of 0/1 matrices are exact here and far faster than integer ones
+        rows = self.syndrome_matrix.astype(float)
+        return ((errors.astype(float) @ rows.T).astype(np.int64) & 1).astype(np.uint8)
+
+    @property
+    def syndrome_matrix(self) -> np.ndarray:
+        """M, shape (s, 2n), uint8, with syndrome = M E (mod 2): <g, E> = g_x . E_z + g_z . E_x."""
+        n, stab = self.n, self.stabilizers
+        return np.concatenate([stab[:, n:], stab[:, :n]], axis=1)
+
     def summary(self) -> str:
         dist = ", ".join(f"d_{k}={v}" for k, v in sorted(self.distances.items()))
         return f"{self.name}: n={self.n}, k={self.k}, {self.generators.shape[0]} generators" + (
