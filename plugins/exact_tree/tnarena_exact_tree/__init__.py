@@ -23,7 +23,7 @@ import numpy as np
 
 import tnarena
 from tnarena.errors import TnarenaError
-from tnarena.network import DecodingNetwork, NetworkStructure
+from tnarena.network import DecodingNetwork, NetworkBatch, NetworkStructure
 from tnarena.strategy import Estimate, Parameter, Strategy
 
 _WARNED = False
@@ -160,12 +160,12 @@ class ExactTree(Strategy):
             return [self.contract(plan, net) for net in networks]
         stats = {"flops": plan.flops, "width": plan.width}
         path = plan.tree.get_ssa_path()
+        stacks = NetworkBatch.from_networks(networks).stacks  # a NetworkBatch brings its own
         out = []
         with _blas_threads(plan.threads):
             for at in range(0, len(networks), group):
-                part = networks[at:at + group]
-                arrays = [np.stack([net.arrays[q] for net in part]) for q in plan.qubit_nodes]
-                batch_stats = stats | {"largest_intermediate": plan.largest_intermediate * len(part)}
+                arrays = [stacks[q][at:at + group] for q in plan.qubit_nodes]
+                batch_stats = stats | {"largest_intermediate": plan.largest_intermediate * min(group, len(networks) - at)}
                 out += [Estimate(float(v), dict(batch_stats)) for v in contract_batch(plan.inputs, path, arrays)]
         return out
 

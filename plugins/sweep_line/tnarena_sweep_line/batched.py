@@ -24,6 +24,7 @@ carried in its own slot of ``log_value`` (shape (B,)).
 from __future__ import annotations
 
 import numpy as np
+from tnarena.network import NetworkBatch
 
 from tnarena_sweep_line.linalg import svd as _svd_one
 from tnarena_sweep_line.mps import Step
@@ -302,27 +303,11 @@ def log_overlap(left: BatchLineMPS, right: BatchLineMPS) -> np.ndarray:
 def stacked_arrays(layout, networks, paths: dict | None = None) -> list[np.ndarray]:
     """The folded group arrays of every network, shape (B,) + (2,) * degree each.
 
-    Node arrays of one shape are gathered in one ``np.array`` call per shape; each group is
-    folded by one batched einsum contracted pairwise along a path found once (cached in
-    ``paths``, keyed by group index).
+    A :class:`~tnarena.network.NetworkBatch` brings its node stacks; other networks are gathered
+    by :meth:`NetworkBatch.from_networks`. Each group is folded by one batched einsum contracted
+    pairwise along a path found once (cached in ``paths``, keyed by group index).
     """
-    batch, count = len(networks), len(networks[0].arrays)
-    by_shape: dict[tuple[int, ...], list[int]] = {}
-    for v, a in enumerate(networks[0].arrays):
-        by_shape.setdefault(a.shape, []).append(v)
-    nodes: list[np.ndarray | None] = [None] * count
-    first = networks[0].arrays
-    for v, a in enumerate(first):  # the same array in every network (a COPY tensor): no copies
-        if all(net.arrays[v] is a for net in networks):
-            nodes[v] = np.broadcast_to(a, (batch,) + a.shape)
-    for shape, members in by_shape.items():
-        members = [v for v in members if nodes[v] is None]
-        if not members:
-            continue
-        stack = np.array([net.arrays[v] for v in members for net in networks]).reshape(
-            (len(members), batch) + shape)
-        for j, v in enumerate(members):
-            nodes[v] = stack[j]
+    nodes = list(NetworkBatch.from_networks(networks).stacks)
     if layout.trivial:
         return nodes
     paths = {} if paths is None else paths
