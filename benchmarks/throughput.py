@@ -6,7 +6,9 @@ Prints three tables, every ratio measured side by side in this run:
    decodes per second one at a time (Decoder.decode_error) and batched
    (Decoder.decode_errors, batches of 64 and 256), and the batched/one ratio, by wall and by
    CPU time; then the contraction alone (networks per CPU second, contract against
-   contract_batch on the same networks, building them not counted);
+   contract_batch on the same networks, handed over as a list and as the NetworkBatch that
+   decode_errors passes, building them not counted), and the CPU time per decode in a batch of
+   256 split into contract_batch and the framework's work around it;
 2. the batched sweep's flop rate (its own flop count over its time) against numpy's
    matrix-product rate measured here on one thread, at the matrix sizes the sweep uses;
 3. time per decode against the number of qubits at fixed chi for sizes 5..25, with the
@@ -25,6 +27,7 @@ from threadpoolctl import threadpool_limits
 
 from tnarena.catalog import load_catalog
 from tnarena.decode import Decoder, logical_classes
+from tnarena.network import NetworkBatch
 from tnarena.noise import make_noise, sample_errors
 
 
@@ -47,25 +50,40 @@ def rate(decoder: Decoder, errors: np.ndarray, batch: int | None) -> tuple[float
     return len(errors) / seconds, flops / seconds
 
 
-def contraction_rates(decoder: Decoder, errors: np.ndarray, batch: int) -> tuple[float, float]:
-    """Networks contracted per CPU second, one at a time (contract) and batched (contract_batch), on
-    the networks of every non-zero class of ``errors``: the contraction alone, without building them."""
-    networks = []
-    for error in errors:
-        pure = decoder.pure_error(decoder.code.syndrome(error))
-        for cls in logical_classes(decoder.code.k):
-            network = decoder.builder.network(pure, cls)
-            if not network.is_zero:
-                networks.append(network)
+def contraction_rates(decoder: Decoder, errors: np.ndarray, batch: int) -> tuple[float, float, float]:
+    """Networks contracted per CPU second on the networks of every possible class of ``errors``: one at
+    a time (contract), batched on lists of networks (contract_batch gathers their arrays) and batched
+    on slices of one NetworkBatch (the stacks decode_errors hands over); building them not counted."""
+    builder, classes = decoder.builder, logical_classes(decoder.code.k)
+    pures = decoder.syndromes.pure_errors(decoder.code.syndromes(errors))
+    stacked = NetworkBatch.concatenate([builder.network_batch(pures, cls)[0] for cls in classes])
+    networks = [net for cls in classes for pure in pures if not (net := builder.network(pure, cls)).is_zero]
     strategy, plan = decoder.strategy, decoder.plan
     cpu = time.process_time()
     for network in networks:
         strategy.contract(plan, network)
     one = len(networks) / (time.process_time() - cpu)
+    rates = [one]
+    for group in (networks, stacked):
+        cpu = time.process_time()
+        for at in range(0, len(group), batch):
+            strategy.contract_batch(plan, group[at:at + batch])
+        rates.append(len(group) / (time.process_time() - cpu))
+    return tuple(rates)
+
+
+def batch_split(decoder: Decoder, errors: np.ndarray) -> tuple[float, float]:
+    """CPU ms per decode of decode_errors(errors) and of its contract_batch alone (same NetworkBatch)."""
     cpu = time.process_time()
-    for at in range(0, len(networks), batch):
-        strategy.contract_batch(plan, networks[at:at + batch])
-    return one, len(networks) / (time.process_time() - cpu)
+    decoder.decode_errors(errors)
+    total = time.process_time() - cpu
+    pures = decoder.syndromes.pure_errors(decoder.code.syndromes(errors))
+    bases = np.concatenate([pures ^ decoder.code.logical_operator(c) for c in logical_classes(decoder.code.k)])
+    networks, _ = decoder.builder.network_batch(bases)
+    cpu = time.process_time()
+    decoder.strategy.contract_batch(decoder.plan, networks)
+    contraction = time.process_time() - cpu
+    return 1e3 * total / len(errors), 1e3 * contraction / len(errors)
 
 
 def matmul_rate(n: int, repeats: int = 200) -> float:
@@ -106,9 +124,13 @@ def main() -> None:
                   f"{b64 / one:>7.2f}{b256 / one:>7.2f}")
             c1, c64, c256 = (CPU_RATES[(name, b)] for b in (None, 64, 256))
             print(f"{'  by CPU time':<22}{'':>9}{c1:>10.1f}{c64:>12.1f}{c256:>13.1f}{c64 / c1:>7.2f}{c256 / c1:>7.2f}")
-            n1, n64 = contraction_rates(decoder, errors[:64], 2 * 64)
-            print(f"{'  contraction alone':<22}{'':>9}{n1:>10.1f}{n64:>12.1f}{'':>13}{n64 / n1:>7.2f}"
-                  "   (networks per CPU second, batches of 2 x 64 networks)")
+            n1, n_list, n_stacked = contraction_rates(decoder, errors[:64], 2 * 64)
+            for what, value in (("list", n_list), ("NetworkBatch", n_stacked)):
+                print(f"{'  contraction alone':<22}{'':>9}{n1:>10.1f}{value:>12.1f}{'':>13}{value / n1:>7.2f}"
+                      f"   (networks per CPU second, batches of 2 x 64 networks, a {what})")
+            total, contraction = batch_split(decoder, errors[:256])
+            print(f"  per decode in a batch of 256: {total:.3f} ms CPU, of which contract_batch {contraction:.3f} ms,"
+                  f" the framework's work {total - contraction:.3f} ms")
         print()
         print("flop rate of the batched contraction against numpy's matrix product on this thread:")
         for n in (2 * args.chi, 4 * args.chi, 256):
