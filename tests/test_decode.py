@@ -81,3 +81,7 @@ def test_batched_pure_errors_name_a_syndrome_no_error_has(catalog):
     assert np.array_equal(symplectic_products(solver.pure_errors(good), redundant.stabilizers), good)
     with pytest.raises(TnarenaError, match="no Pauli error has this syndrome.*in row 1"):
         solver.pure_errors(np.stack([good[0], bad]))
+
+
+def test_an_empty_batch_of_errors_gives_no_results(decoder):
+    assert decoder.decode_errors(np.zeros((0, 2 * decoder.code.n), dtype=np.uint8)) == []

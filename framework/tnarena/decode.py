@@ -194,6 +194,8 @@ class Decoder:
         time divided by the number of networks contracted (amortised).
         """
         code, count = self.code, len(errors)
+        if count == 0:
+            return []
         errors = np.asarray(errors, dtype=np.uint8).reshape(count, -1)
         syndromes = code.syndromes(errors)
         pures = self.syndromes.pure_errors(syndromes)
