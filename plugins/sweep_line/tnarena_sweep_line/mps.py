@@ -65,6 +65,14 @@ class LineMPS:
         self.flops = 0.0
         self.largest = 1
 
+    def copy(self) -> "LineMPS":
+        """An independent line in the same state (sites are never written in place: shared)."""
+        out = LineMPS(self.chi, self.cutoff)
+        out.sites = list(self.sites)
+        out.center, out.log_value, out.discarded = self.center, self.log_value, self.discarded
+        out.flops, out.largest = self.flops, self.largest
+        return out
+
     # ---- canonical form ----------------------------------------------------
     def _move_center(self, lo: int, hi: int) -> None:
         """QR the centre rightwards to ``lo`` or LQ it leftwards to ``hi - 1``."""
