@@ -219,6 +219,21 @@ def test_returned_logicals_are_shortest_representatives(catalog, lattice, size):
     assert (int(x_bar[:n].sum()), int(z_bar[n:].sum())) == (_d_x(code), _d_z(code))
 
 
+@pytest.mark.parametrize("d", [3, 5, 7, 9])
+def test_square_logicals_run_through_the_middle(catalog, d):
+    """On the square lattice (odd d) the straight column of horizontal edges and the straight row
+    through the centre of the qubits' bounding box are minimum-weight X-bar and Z-bar (REFERENCES
+    10, common practice); the module picks the shortest logicals nearest the middle, so it must
+    return exactly these."""
+    code = catalog.build_code("surface", "square", d)
+    n, pos = code.n, code.qubit_positions
+    x_bar, z_bar = code.logicals[0]
+    mid = (pos.min(axis=0) + pos.max(axis=0)) / 2
+    x_support, z_support = pos[np.flatnonzero(x_bar[:n])], pos[np.flatnonzero(z_bar[n:])]
+    assert len(x_support) == len(z_support) == d
+    assert np.allclose(x_support[:, 0], mid[0]) and np.allclose(z_support[:, 1], mid[1])
+
+
 # ---- random lattices: the seed decides the code ----------------------------------------
 
 

@@ -6,6 +6,12 @@ their vertices carry no stabilizer (edges joining two of them carry no qubit),
 so a Z-bar is a path of edges from the left boundary to the right one. The
 top and bottom stretches are smooth: an X-bar is a path in the dual from the
 bottom of the outer face to its top. Both distances are shortest paths.
+
+Of the shortest paths, each logical takes the one nearest the middle of the
+patch (Z-bar the horizontal middle line, X-bar the vertical one, by summed
+distance). Any representative gives the same class probabilities; one through
+the middle lets a strategy that sweeps the patch from both ends share the work
+of classes that differ only by it (the sweep line does).
 """
 
 from __future__ import annotations
@@ -81,12 +87,22 @@ class _Layout:
                 self.face_qubits.append(qs)
 
     def z_path(self) -> list[int]:
-        return _primal_path(self.lattice, self.side_of, self.keep, self.qubit_of_edge)
+        return _primal_path(self.lattice, self.side_of, self.keep, self.qubit_of_edge, self._off_middle(1))
 
     def x_path(self) -> list[int]:
         return _dual_path(
-            self.lattice, self.cycle, self.side_of, self.keep, self.qubit_of_edge, self.face_qubits
+            self.lattice, self.cycle, self.side_of, self.keep, self.qubit_of_edge, self.face_qubits,
+            self._off_middle(0),
         )
+
+    def _off_middle(self, axis: int) -> np.ndarray:
+        """Per qubit, a path-length weight 1 + eps * (distance from the middle line across ``axis``,
+        over the patch's extent): eps is small enough that no detour of even one extra qubit pays."""
+        pos = self.lattice.positions
+        centre = self.lattice.positions[self.lattice.edges[self.keep]].mean(axis=1)[:, axis]
+        lo, hi = pos[:, axis].min(), pos[:, axis].max()
+        off = np.abs(centre - (lo + hi) / 2) / max(hi - lo, 1e-12)  # in [0, 1/2]
+        return 1.0 + off / (self.n + 1)
 
 
 def _rough_runs(lattice: Lattice, cycle: list[int]) -> tuple[list[int], list[int]]:
@@ -134,19 +150,22 @@ def _same_side(edges: np.ndarray, side_of: dict[int, str]) -> np.ndarray:
     return (a == b) & (a != "")
 
 
-def _primal_path(lattice, side_of, keep, qubit_of_edge) -> list[int]:
-    """Qubits of a shortest edge path from the left rough boundary to the right one."""
+def _primal_path(lattice, side_of, keep, qubit_of_edge, weight) -> list[int]:
+    """Qubits of a shortest edge path from the left rough boundary to the right one (the lightest
+    by ``weight``, shape (n,), among them)."""
     graph = nx.Graph()
     for e, (u, v) in enumerate(lattice.edges):
         if keep[e]:
             a, b = side_of.get(int(u), int(u)), side_of.get(int(v), int(v))
-            graph.add_edge(a, b, qubit=int(qubit_of_edge[e]))
-    nodes = nx.shortest_path(graph, "L", "R")
+            q = int(qubit_of_edge[e])
+            graph.add_edge(a, b, qubit=q, weight=float(weight[q]))
+    nodes = nx.shortest_path(graph, "L", "R", weight="weight")
     return [graph.edges[a, b]["qubit"] for a, b in zip(nodes, nodes[1:])]
 
 
-def _dual_path(lattice, cycle, side_of, keep, qubit_of_edge, face_qubits) -> list[int]:
-    """Qubits crossed by a shortest dual path from the bottom smooth boundary to the top one."""
+def _dual_path(lattice, cycle, side_of, keep, qubit_of_edge, face_qubits, weight) -> list[int]:
+    """Qubits crossed by a shortest dual path from the bottom smooth boundary to the top one (the
+    lightest by ``weight``, shape (n,), among them)."""
     owner: dict[int, list] = {}
     for f, qs in enumerate(face_qubits):
         for q in qs:
@@ -168,6 +187,6 @@ def _dual_path(lattice, cycle, side_of, keep, qubit_of_edge, face_qubits) -> lis
     graph = nx.Graph()
     for q, ends in owner.items():
         if len(ends) == 2:
-            graph.add_edge(ends[0], ends[1], qubit=q)
-    nodes = nx.shortest_path(graph, "bottom", "top")
+            graph.add_edge(ends[0], ends[1], qubit=q, weight=float(weight[q]))
+    nodes = nx.shortest_path(graph, "bottom", "top", weight="weight")
     return [graph.edges[a, b]["qubit"] for a, b in zip(nodes, nodes[1:])]

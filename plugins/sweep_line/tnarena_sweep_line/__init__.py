@@ -11,6 +11,13 @@ straight; with ``'node'`` every new bond is cut to chi at once. Incoming
 bonds that are not next to each other on the line (ties in projection,
 overlapping nodes, non-planar drawings) are brought together by swaps first. The geometry (order, swaps,
 windows) is worked out once per structure; contracting replays it.
+
+A plan remembers, per side, the arrays its last contraction absorbed and the line at its latest
+layer ends (``SNAPSHOTS``); the next contraction resumes from the last layer end before its first
+different array. The class networks of one syndrome differ only near their logical operator, so
+a side that never meets it is taken over whole (``stats['reused_steps']`` counts the steps
+taken over). The values are the same, bit for bit, as from scratch; ``flops`` and
+``discarded_weight`` are those of the whole contraction, steps taken over included.
 """
 
 from __future__ import annotations
@@ -45,6 +52,9 @@ RESCALE_EVERY = 8
 #: With truncate = 'layer': bonds may grow to this many times chi inside a layer.
 LAYER_SLACK = 2
 
+#: Line states kept per side for the next contraction to resume from (the latest layer ends).
+SNAPSHOTS = 3
+
 
 @dataclass
 class SweepPlan:
@@ -57,10 +67,29 @@ class SweepPlan:
     layout: FoldedLayout
     cap: int  # most singular values kept while absorbing
     fold_paths: dict = dataclasses.field(default_factory=dict)  # einsum paths of the batched fold, by group
+    memo: dict = dataclasses.field(default_factory=dict, repr=False)  # (piece, side) -> _SideMemo
 
     @property
     def max_line(self) -> int:
         return max((s.max_line for sides in self.schedules for s in sides), default=0)
+
+    def __getstate__(self) -> dict:
+        return {**self.__dict__, "memo": {}}  # the memo is this process's, not part of the plan
+
+
+@dataclass
+class _SideMemo:
+    """What one side's last contraction leaves for the next one with the same plan.
+
+    content : the absorbed arrays, flattened and joined in step order; offsets : where each step's
+    array starts in it (shape (steps + 1,)); snapshots : (steps done, line) at the latest layer
+    ends; final : the line at the end.
+    """
+
+    content: np.ndarray
+    offsets: np.ndarray
+    snapshots: list[tuple[int, LineMPS]]
+    final: LineMPS
 
 
 def parse_direction(value: Any) -> float | None:
@@ -172,9 +201,13 @@ class SweepLine(Strategy):
 
     def _contract(self, plan: SweepPlan, network: DecodingNetwork) -> Estimate:
         arrays = plan.layout.arrays(network.arrays)
-        log_value, flops, largest, discarded = 0.0, 0.0, 1, 0.0
-        for per_side in plan.steps:
-            lines = [_run(steps, arrays, plan) for steps in per_side]
+        log_value, flops, largest, discarded, reused = 0.0, 0.0, 1, 0.0, 0
+        for piece, per_side in enumerate(plan.steps):
+            lines = []
+            for side, steps in enumerate(per_side):
+                mps, resumed = _run_resuming(steps, arrays, plan, (piece, side))
+                lines.append(mps)
+                reused += resumed
             piece = lines[0].log_value if len(lines) == 1 else log_overlap(*lines)
             log_value += piece
             for mps in lines:
@@ -191,6 +224,7 @@ class SweepLine(Strategy):
             "max_line": float(plan.max_line),
             "direction": first.direction if first else 0.0,
             "sides": float(max((len(g) for g in plan.schedules), default=1)),
+            "reused_steps": float(reused),
         }
         return Estimate(log_value, stats)
 
@@ -204,17 +238,44 @@ def _blas():
     return ThreadpoolController()
 
 
-def _run(steps: list[Step], arrays: list, plan: SweepPlan) -> LineMPS:
-    """Replay one schedule on the arrays; the line it leaves (a scalar after a whole piece)."""
-    mps = LineMPS(plan.chi, plan.cutoff)
+def _run_resuming(steps: list[Step], arrays: list, plan: SweepPlan, key: tuple[int, int]) -> tuple[LineMPS, int]:
+    """Replay one side's schedule on the arrays, resuming from the previous contraction with this
+    plan where it absorbed the same arrays: the line it leaves, and how many steps were taken over.
+
+    Class networks of one syndrome differ only near their logical operator, so a side that never
+    meets it is not redone and one that meets it late restarts from the layer end before. The
+    line is a function of the arrays absorbed so far alone, so the result is the same, bit for
+    bit, as contracting from scratch.
+    """
+    nodes = [arrays[step.node].reshape(-1) for step in steps if step.node >= 0]
+    content = np.concatenate(nodes) if nodes else np.zeros(0)
+    sizes = np.zeros(len(steps) + 1, dtype=np.int64)
+    sizes[1:] = [arrays[step.node].size if step.node >= 0 else 0 for step in steps]
+    offsets = np.cumsum(sizes)
+    memo = plan.memo.get(key)
+    start, mps = 0, None
+    if memo is not None and memo.content.shape == content.shape:
+        differ = np.flatnonzero(memo.content != content)
+        if differ.size == 0:
+            return memo.final, len(steps)
+        same = int(np.searchsorted(offsets, differ[0], side="right")) - 1  # steps whose arrays agree
+        for done, line in reversed(memo.snapshots):
+            if done <= same:
+                start, mps = done, line.copy()
+                break
+    mps = mps or LineMPS(plan.chi, plan.cutoff)
+    snapshots = [s for s in (memo.snapshots if memo else []) if s[0] <= start]
     cap = plan.cap
-    for step in steps:
+    for k in range(start, len(steps)):
+        step = steps[k]
         mps.apply(step, None if step.node < 0 else arrays[step.node], cap)
         if step.end:
             mps.compress()
+            snapshots = (snapshots + [(k + 1, mps.copy())])[-SNAPSHOTS:]
         if mps.log_value == -math.inf:
             break
-    return mps
+    plan.memo[key] = _SideMemo(content, offsets, snapshots, mps)
+    return mps, start
 
 
 def _run_batch(steps: list[Step], arrays: list, plan: SweepPlan, batch: int) -> _batched.BatchLineMPS:

@@ -8,7 +8,8 @@ normalised after every operation and the logarithm of its norm carried.
 
 Hot paths use matrix products on reshaped arrays and LAPACK directly
 (:mod:`tnarena_sweep_line.linalg`); a window whose new bonds fit the cap is
-split by QR (exact), only wider ones by a truncated SVD.
+split exactly (an identity site and the block where the rows are fewer than
+the columns, else by QR), only wider ones by a truncated SVD.
 """
 
 from __future__ import annotations
@@ -19,6 +20,18 @@ from dataclasses import dataclass
 import numpy as np
 
 from tnarena_sweep_line.linalg import lq, qr, svd
+
+
+_EYES: dict[int, np.ndarray] = {}
+
+
+def _eye(k: int) -> np.ndarray:
+    """The k x k identity, made once per k and read-only (sites are shared, never written)."""
+    eye = _EYES.get(k)
+    if eye is None:
+        eye = _EYES[k] = np.eye(k)
+        eye.flags.writeable = False
+    return eye
 
 
 @dataclass(frozen=True, slots=True)
@@ -64,6 +77,15 @@ class LineMPS:
         self.discarded = 0.0
         self.flops = 0.0
         self.largest = 1
+        self._centre_offset = 0  # where the centre lands in the window just split
+
+    def copy(self) -> "LineMPS":
+        """An independent line in the same state (sites are never written in place: shared)."""
+        out = LineMPS(self.chi, self.cutoff)
+        out.sites = list(self.sites)
+        out.center, out.log_value, out.discarded = self.center, self.log_value, self.discarded
+        out.flops, out.largest = self.flops, self.largest
+        return out
 
     # ---- canonical form ----------------------------------------------------
     def _move_center(self, lo: int, hi: int) -> None:
@@ -117,12 +139,13 @@ class LineMPS:
         else:
             block = self._general(np.ones((1, 1)), node, step)
         self.largest = max(self.largest, block.size)
+        self._centre_offset = count - 1
         self.sites[lo:hi] = self._split(block, count, cap)
         if count and not step.rescale:
-            self.center = lo + count - 1
+            self.center = lo + self._centre_offset
             return
         if count:
-            self.center = lo + count - 1
+            self.center = lo + self._centre_offset
             centre = self.sites[self.center]
             norm = math.sqrt(float(np.dot(centre.reshape(-1), centre.reshape(-1))))
         else:
@@ -219,7 +242,11 @@ class LineMPS:
         if count == 1:
             return [block.reshape(dl, 2, dr)]
         rest = block.reshape(dl * 2, -1)
-        if count == 2 and min(rest.shape) <= cap:  # the common case, exact
+        if count == 2 and rest.shape[0] <= min(rest.shape[1], cap):
+            # the common case, exact and canonical without a QR: an identity (left-orthogonal) site,
+            # then the block, which holds the centre
+            return [_eye(2 * dl).reshape(dl, 2, 2 * dl), rest.reshape(-1, 2, dr)]
+        if count == 2 and min(rest.shape) <= cap:  # exact
             self.flops += rest.shape[0] * rest.shape[1] * min(rest.shape)
             q, rest = qr(rest)
             return [q.reshape(dl, 2, -1), rest.reshape(-1, 2, dr)]
