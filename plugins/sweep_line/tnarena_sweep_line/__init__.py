@@ -39,6 +39,7 @@ from tnarena.strategy import Estimate, Parameter, Strategy
 from tnarena_sweep_line import batched as _batched
 from tnarena_sweep_line.merge import FoldedLayout, fold_small_nodes
 from tnarena_sweep_line.mps import LineMPS, Step, log_overlap
+from tnarena_sweep_line.sharing import PrefixGroups, take
 from tnarena_sweep_line.ordering import (SweepSchedule, WindowOp, build_schedule, layer_ends, reorder_line,
                                          split_at_middle)
 
@@ -182,12 +183,19 @@ class SweepLine(Strategy):
         log_value, discarded = np.zeros(batch), np.zeros(batch)
         flops, largest = 0.0, 1
         for per_side in plan.steps:
-            lines = [_run_batch(steps, arrays, plan, batch) for steps in per_side]
-            log_value += lines[0].log_value if len(lines) == 1 else _batched.log_overlap(*lines)
-            for mps in lines:
+            runs = [_run_batch(steps, arrays, plan, batch) for steps in per_side]
+            if len(runs) == 1:
+                log_value += runs[0][0].log_value[runs[0][1]]
+            else:  # join each pair of groups that some element has, once
+                (left, a), (right, b) = runs
+                pairs = np.stack([a, b], axis=1)
+                unique, inverse = np.unique(pairs, axis=0, return_inverse=True)
+                joined = _batched.log_overlap(left.take(unique[:, 0]), right.take(unique[:, 1]))
+                log_value += joined[inverse.reshape(-1)]
+            for mps, labels in runs:
                 flops += mps.flops
                 largest = max(largest, mps.largest)
-                discarded += mps.discarded
+                discarded += mps.discarded[labels]
         first = plan.schedules[0][0] if plan.schedules else None
         common = {
             "flops": flops,
@@ -278,15 +286,30 @@ def _run_resuming(steps: list[Step], arrays: list, plan: SweepPlan, key: tuple[i
     return mps, start
 
 
-def _run_batch(steps: list[Step], arrays: list, plan: SweepPlan, batch: int) -> _batched.BatchLineMPS:
-    """Replay one schedule on stacked arrays (each (B,) + node shape); every element runs to the end."""
-    mps = _batched.BatchLineMPS(batch, plan.chi, plan.cutoff)
+def _run_batch(steps: list[Step], arrays: list, plan: SweepPlan,
+               batch: int) -> tuple[_batched.BatchLineMPS, np.ndarray]:
+    """Replay one schedule on stacked arrays (each (B,) + node shape); every element runs to the end.
+
+    Elements that absorbed the same arrays so far share a line (:mod:`tnarena_sweep_line.sharing`):
+    returns the lines, one per group, and each element's group (shape (B,)).
+    """
+    groups = PrefixGroups(batch)
+    mps = _batched.BatchLineMPS(groups.count, plan.chi, plan.cutoff)
     cap = plan.cap
-    for step in steps:
-        mps.apply(step, None if step.node < 0 else arrays[step.node], cap)
-        if step.end:
-            mps.compress()
-    return mps
+    start = 0
+    for stop in [k + 1 for k, step in enumerate(steps) if step.end] + [len(steps)]:
+        layer = steps[start:stop]
+        nodes = sorted({step.node for step in layer if step.node >= 0})
+        parent = groups.refine([arrays[v] for v in nodes])
+        if parent is not None:
+            mps = mps.take(parent)
+        mine = {v: arrays[v] if groups.count == batch else take(arrays[v], groups.rep) for v in nodes}
+        for step in layer:
+            mps.apply(step, None if step.node < 0 else mine[step.node], cap)
+            if step.end:
+                mps.compress()
+        start = stop
+    return mps, groups.labels
 
 
 def _piece_schedules(layout: FoldedLayout, angle: float, piece: list[int], sides: int) -> tuple[SweepSchedule, ...]:

@@ -19,6 +19,10 @@ with r <= c: an identity site, then the block; r > c and c within the cap: the b
 identity site, the centre on the block), and so do QR / LQ of wide / tall matrices.
 Every element is normalised separately and the logarithm of its scale
 carried in its own slot of ``log_value`` (shape (B,)).
+
+Elements whose arrays agree so far share one line (:mod:`tnarena_sweep_line.sharing`): the
+class networks of one syndrome differ only near their logical operator, so under depolarizing
+noise on the surface code about half of the lines are never run.
 """
 
 from __future__ import annotations
@@ -28,6 +32,7 @@ from tnarena.network import NetworkBatch
 
 from tnarena_sweep_line.linalg import svd as _svd_one
 from tnarena_sweep_line.mps import Step
+from tnarena_sweep_line.sharing import take
 
 
 def _identity(batch: int, k: int) -> np.ndarray:
@@ -83,6 +88,16 @@ class BatchLineMPS:
         self.discarded = np.zeros(batch)
         self.flops = 0.0
         self.largest = 1
+
+    def take(self, index: np.ndarray) -> "BatchLineMPS":
+        """A batch of the lines of elements ``index`` (shape (G,)); sites broadcast along the batch
+        axis (identity sites) stay views."""
+        out = BatchLineMPS(len(index), self.chi, self.cutoff)
+        out.sites = [take(site, index) for site in self.sites]
+        out.center = self.center
+        out.log_value, out.discarded = self.log_value[index], self.discarded[index]
+        out.flops, out.largest = self.flops, self.largest
+        return out
 
     def _move_center(self, lo: int, hi: int) -> None:
         sites, batch = self.sites, self.batch
