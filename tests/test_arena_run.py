@@ -228,3 +228,32 @@ def test_a_setting_that_keeps_timing_out_is_given_up_at_that_point(tmp_path):
     assert reasons[:4] == ["skipped: 2 tasks of this setting at this point ran past the time limit (1 s); "
                            "raise time_limit or give_up_after to run it"] * 4
     assert reasons[4:] == ["time limit exceeded (1 s)"] * 2
+
+
+def test_traced_memory_is_taken_on_a_fresh_plan(catalog):
+    """The sweep's plan resumes from its last contraction, so contracting the decided class again
+    with it would allocate almost nothing. traced_peak must measure a whole contraction: at least
+    half of what tracemalloc (Python's standard library) records here for a plan made anew."""
+    import tracemalloc
+
+    from tnarena.arena.worker import traced_peak
+    from tnarena.decode import Decoder
+
+    code = catalog.build_code("surface", "square", 7)
+    table = make_noise("depolarizing", code.n, 0.12)
+    sweep = catalog.strategy("sweep")
+    decoder = Decoder(code, table, sweep, {"chi": 16})
+    result = decoder.decode_error(sample_errors(table, np.random.default_rng(2)))
+    network = decoder.builder.network(decoder.pure_error(result.syndrome), result.decision)
+    warm = sweep.contract(decoder.plan, network)  # the plan now holds this very contraction
+    assert warm.stats["reused_steps"] > 0
+    fresh = sweep.plan(decoder.builder.structure, decoder.params)
+    tracemalloc.start()
+    try:
+        base = tracemalloc.get_traced_memory()[0]
+        tracemalloc.reset_peak()
+        sweep.contract(fresh, network)
+        want = tracemalloc.get_traced_memory()[1] - base
+    finally:
+        tracemalloc.stop()
+    assert traced_peak(decoder, result) >= 0.5 * want

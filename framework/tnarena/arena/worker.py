@@ -248,17 +248,22 @@ def syndrome_hex(syndrome: np.ndarray) -> str:
 def traced_peak(decoder: Decoder, result) -> float:
     """Peak bytes allocated (tracemalloc) while contracting the decided class once more.
 
-    Run after the timed decode so tracing does not slow the timed contraction.
+    Run after the timed decode so tracing does not slow the timed contraction. The contraction
+    uses a fresh copy of the plan (a pickled round trip, where the plan pickles), so that what a
+    plan keeps from its last contractions (the sweep resumes where the arrays agree) does not
+    shrink the figure.
     """
     pure = decoder.pure_error(result.syndrome)
     network = decoder.builder.network(pure, result.decision)
     if network.is_zero:
         return 0.0
+    blob = _pickled(decoder.plan)
+    plan = decoder.plan if blob is None else pickle.loads(blob)
     tracemalloc.start()
     try:
         base = tracemalloc.get_traced_memory()[0]
         tracemalloc.reset_peak()
-        decoder.strategy.contract(decoder.plan, network)
+        decoder.strategy.contract(plan, network)
         peak = tracemalloc.get_traced_memory()[1]
     finally:
         tracemalloc.stop()
