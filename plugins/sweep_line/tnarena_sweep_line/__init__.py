@@ -210,10 +210,10 @@ class SweepLine(Strategy):
     def _contract(self, plan: SweepPlan, network: DecodingNetwork) -> Estimate:
         arrays = plan.layout.arrays(network.arrays)
         log_value, flops, largest, discarded, reused = 0.0, 0.0, 1, 0.0, 0
-        for piece, per_side in enumerate(plan.steps):
+        for index, per_side in enumerate(plan.steps):
             lines = []
             for side, steps in enumerate(per_side):
-                mps, resumed = _run_resuming(steps, arrays, plan, (piece, side))
+                mps, resumed = _run_resuming(steps, arrays, plan, (index, side))
                 lines.append(mps)
                 reused += resumed
             piece = lines[0].log_value if len(lines) == 1 else log_overlap(*lines)
