@@ -252,7 +252,7 @@ def test_resumed_contraction_is_bit_identical_and_close_to_exact(catalog, noise_
             if network.is_zero:
                 continue
             got = sw.contract(ps, network)
-            fresh = sw.contract(sw.plan(builder.structure, ps_params(sw, 32)), network)
+            fresh = sw.contract(sw.plan(builder.structure, _params_at(sw, 32)), network)
             assert got.log_value == fresh.log_value
             assert fresh.stats["reused_steps"] == 0
             want = ex.contract(pe, network).log_value
@@ -262,7 +262,8 @@ def test_resumed_contraction_is_bit_identical_and_close_to_exact(catalog, noise_
     assert min(reused[(1, 0)]) >= steps // 2 - 1  # at least the untouched half
 
 
-def ps_params(sw, chi):
+def _params_at(sw, chi):
+    """The params of the plan under test (chi, direction 0), validated."""
     return sw.resolve({"chi": chi, "direction": 0})
 
 
