@@ -257,10 +257,13 @@ def _run_resuming(steps: list[Step], arrays: list, plan: SweepPlan, key: tuple[i
     """
     nodes = [arrays[step.node].reshape(-1) for step in steps if step.node >= 0]
     content = np.concatenate(nodes) if nodes else np.zeros(0)
-    sizes = np.zeros(len(steps) + 1, dtype=np.int64)
-    sizes[1:] = [arrays[step.node].size if step.node >= 0 else 0 for step in steps]
-    offsets = np.cumsum(sizes)
     memo = plan.memo.get(key)
+    if memo is None:  # the offsets follow from the plan alone: worked out on its first contraction
+        sizes = np.zeros(len(steps) + 1, dtype=np.int64)
+        sizes[1:] = [arrays[step.node].size if step.node >= 0 else 0 for step in steps]
+        offsets = np.cumsum(sizes)
+    else:
+        offsets = memo.offsets
     start, mps = 0, None
     if memo is not None and memo.content.shape == content.shape:
         differ = np.flatnonzero(memo.content != content)
