@@ -9,9 +9,11 @@ well above the largest chi compared so that its own error does not flatter the s
     .venv/bin/python benchmarks/approximate_shootout.py --sizes 9 --syndromes 5
 
 Prints, per (size, noise): for each strategy and chi, the median contraction time per
-syndrome (all classes that can be non-zero) and the mean |error in ln P| per class; then
-the target check: the sweep's time to reach the better quimb baseline's accuracy, and the
-sweep's time against the number of qubits at fixed chi (fitted exponent).
+syndrome (all classes that can be non-zero), the mean |error in ln P| per class with a 90%
+bootstrap interval over the syndromes, and the mean error of each syndrome's most likely class;
+then the target check: the sweep's time to reach the better quimb baseline's accuracy (and, for
+information, the same on the most likely class alone), and the sweep's time against the number
+of qubits at fixed chi (fitted exponent).
 """
 
 from __future__ import annotations
@@ -65,9 +67,28 @@ def run_setting(strategy, params, structure, groups):
     return plan_s, float(np.median(times)), values, float(np.median(cpu))
 
 
-def mean_error(values, reference):
-    diffs = [abs(v - r) for vs, rs in zip(values, reference) for v, r in zip(vs, rs)]
-    return float(np.mean(diffs))
+#: Bootstrap resamples of the syndromes for the interval of a mean error, and its seed.
+BOOTSTRAP, BOOTSTRAP_SEED = 2000, 12345
+
+
+def error_summary(values, reference) -> tuple[float, float, float, float]:
+    """(mean |d ln P| over all classes, 5% and 95% bootstrap quantiles of that mean, mean |d ln P| of
+    the reference's most likely class per syndrome).
+
+    The interval resamples whole syndromes with replacement (percentile bootstrap, common practice):
+    a syndrome's classes are not independent draws. The mean over classes is dominated by a few
+    unlikely classes, whose relative error the truncation amplifies, so the interval is wide where
+    they are few; the most likely class is the one a decoder's decision rests on.
+    """
+    per = [np.abs(np.asarray(vs) - np.asarray(rs)) for vs, rs in zip(values, reference)]
+    sums = np.array([p.sum() for p in per])
+    counts = np.array([p.size for p in per])
+    rng = np.random.default_rng(BOOTSTRAP_SEED)
+    draws = rng.integers(0, len(per), size=(BOOTSTRAP, len(per)))
+    means = sums[draws].sum(axis=1) / counts[draws].sum(axis=1)
+    top = [p[int(np.argmax(rs))] for p, rs in zip(per, reference)]
+    return (float(sums.sum() / counts.sum()), float(np.quantile(means, 0.05)), float(np.quantile(means, 0.95)),
+            float(np.mean(top)))
 
 
 def main(argv=None) -> int:
@@ -107,7 +128,7 @@ def main(argv=None) -> int:
                 print(f"   exact: plan {ref[0]:.2f} s, {1e3 * ref[1]:.1f} ms per syndrome")
             reference = ref[2]
             print(f"   {'strategy':<18}{'chi':>5}{'plan [s]':>10}{'ms/syndrome':>14}{'cpu ms':>10}{'mean |d ln P|':>16}"
-                  f"   vs {ref_label}")
+                  f"{'90% interval':>22}{'top class':>12}   vs {ref_label}")
             results = {}
             for name in names:
                 for chi in args.sweep_chis if name == "sweep" else args.chis:
@@ -116,13 +137,15 @@ def main(argv=None) -> int:
                     if isinstance(out, str):
                         print(f"   {name:<18}{chi:>5}   refused: {out}")
                         continue
-                    err = mean_error(out[2], reference)
-                    results[(name, chi)] = (out[1], err, out[3])
-                    print(f"   {name:<18}{chi:>5}{out[0]:>10.2f}{1e3 * out[1]:>14.2f}{1e3 * out[3]:>10.2f}{err:>16.2e}",
-                          flush=True)
+                    err, low, high, top = error_summary(out[2], reference)
+                    results[(name, chi)] = (out[1], err, out[3], top)
+                    print(f"   {name:<18}{chi:>5}{out[0]:>10.2f}{1e3 * out[1]:>14.2f}{1e3 * out[3]:>10.2f}{err:>16.2e}"
+                          f"{f'{low:.1e} .. {high:.1e}':>22}{top:>12.1e}", flush=True)
                     scaling.setdefault((name, chi), []).append((code.n, out[1], out[3]))
             _target(results, args.chis, clock=0, label="wall")
             _target(results, args.chis, clock=2, label="cpu", quiet=True)
+            _target(results, args.chis, clock=2, label="cpu time at equal error on the most likely class", quiet=True,
+                    error=3)
     _scaling(scaling)
     return 0
 
@@ -131,17 +154,20 @@ def main(argv=None) -> int:
 ACCURACY_FLOOR = 1e-10
 
 
-def _target(results, chis, clock: int = 0, label: str = "wall", quiet: bool = False) -> None:
+def _target(results, chis, clock: int = 0, label: str = "wall", quiet: bool = False, error: int = 1) -> None:
     """For each baseline setting: the cheapest sweep setting at least as accurate, and the speed ratio,
-    by wall time (clock 0) or this process's CPU time (clock 2; steadier on a shared machine)."""
-    sweep = sorted((r[clock], chi, r[1]) for (n, chi), r in results.items() if n == "sweep")
+    by wall time (clock 0) or this process's CPU time (clock 2; steadier on a shared machine).
+
+    error 1 compares the mean |d ln P| over all classes (the target's measure); error 3 that of the
+    most likely class only (for information: what a decoder's decision rests on)."""
+    sweep = sorted((r[clock], chi, r[error]) for (n, chi), r in results.items() if n == "sweep")
     if not sweep:
         return
     ratios = []
     for (name, chi_b), r in sorted(results.items()):
         if name not in BASELINES:
             continue
-        t_b, err_b = r[clock], r[1]
+        t_b, err_b = r[clock], r[error]
         goal = max(err_b, ACCURACY_FLOOR)
         hit = next(((t, chi, err) for t, chi, err in sweep if err <= goal), None)
         if hit is None:
@@ -153,10 +179,14 @@ def _target(results, chis, clock: int = 0, label: str = "wall", quiet: bool = Fa
         if not quiet:
             print(f"   vs {name} chi={chi_b} (error {err_b:.1e}, {1e3 * t_b:.1f} ms): sweep chi={hit[1]} "
                   f"(error {hit[2]:.1e}, {1e3 * hit[0]:.1f} ms) is {t_b / hit[0]:.1f}x faster")
-    if ratios:
+    if not ratios:
+        return
+    listed = f"ratios {', '.join(f'{x:.1f}x' for x in ratios)}; smallest {min(ratios):.1f}x"
+    if error == 1:
         verdict = "met" if min(ratios) >= 5 else "MISSED"
-        print(f"   target by {label} time (sweep >= 5x faster at equal accuracy): ratios "
-              f"{', '.join(f'{x:.1f}x' for x in ratios)}; smallest {min(ratios):.1f}x: {verdict}")
+        print(f"   target by {label} time (sweep >= 5x faster at equal accuracy): {listed}: {verdict}")
+    else:
+        print(f"   (not the target) {label}: {listed}")
 
 
 def _scaling(scaling) -> None:
