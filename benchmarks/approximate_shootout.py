@@ -10,7 +10,8 @@ well above the largest chi compared so that its own error does not flatter the s
 
 Prints, per (size, noise): for each strategy and chi, the median contraction time per
 syndrome (all classes that can be non-zero), the mean |error in ln P| per class with a 90%
-bootstrap interval over the syndromes, and the mean error of each syndrome's most likely class;
+bootstrap interval over the syndromes, the mean error of each syndrome's most likely class and
+that of the others by their class relative to it (X: they differ by X-bar, and so on);
 then the target check: the sweep's time to reach the better quimb baseline's accuracy (and, for
 information, the same on the most likely class alone), and the sweep's time against the number
 of qubits at fixed chi (fitted exponent).
@@ -25,6 +26,7 @@ import time
 import numpy as np
 
 from tnarena.catalog import load_catalog
+from tnarena.decode import class_label
 from tnarena.errors import TnarenaError
 from tnarena.network import NetworkBuilder
 from tnarena.noise import make_noise, sample_errors
@@ -34,7 +36,8 @@ APPROXIMATE = ("sweep", "columns") + BASELINES
 
 
 def networks_for(code, table, syndromes: int, seed: int):
-    """The non-zero class networks of ``syndromes`` seeded sampled errors, grouped by syndrome."""
+    """The non-zero class networks of ``syndromes`` seeded sampled errors, grouped by syndrome; each
+    network's ``metadata['class']`` is its logical class."""
     from tnarena.decode import SyndromeSolver, logical_classes
 
     builder = NetworkBuilder(code, table)
@@ -43,8 +46,13 @@ def networks_for(code, table, syndromes: int, seed: int):
     for s in range(syndromes):
         error = sample_errors(table, np.random.default_rng(np.random.SeedSequence([seed, s])))
         e_s = solver.pure_error(code.syndrome(error))
-        nets = [builder.network(e_s, c) for c in logical_classes(code.k)]
-        groups.append([n for n in nets if not n.is_zero])
+        nets = []
+        for c in logical_classes(code.k):
+            net = builder.network(e_s, c)
+            if not net.is_zero:
+                net.metadata["class"] = c
+                nets.append(net)
+        groups.append(nets)
     return builder.structure, groups
 
 
@@ -71,9 +79,10 @@ def run_setting(strategy, params, structure, groups):
 BOOTSTRAP, BOOTSTRAP_SEED = 2000, 12345
 
 
-def error_summary(values, reference) -> tuple[float, float, float, float]:
+def error_summary(values, reference, classes) -> tuple[float, float, float, float, dict[str, float]]:
     """(mean |d ln P| over all classes, 5% and 95% bootstrap quantiles of that mean, mean |d ln P| of
-    the reference's most likely class per syndrome).
+    the reference's most likely class per syndrome, mean |d ln P| by class relative to that one:
+    label of c + c_top -> mean). ``classes``: per syndrome, the logical class of each value.
 
     The interval resamples whole syndromes with replacement (percentile bootstrap, common practice):
     a syndrome's classes are not independent draws. The mean over classes is dominated by a few
@@ -87,8 +96,15 @@ def error_summary(values, reference) -> tuple[float, float, float, float]:
     draws = rng.integers(0, len(per), size=(BOOTSTRAP, len(per)))
     means = sums[draws].sum(axis=1) / counts[draws].sum(axis=1)
     top = [p[int(np.argmax(rs))] for p, rs in zip(per, reference)]
+    relative: dict[str, list[float]] = {}
+    for p, rs, cs in zip(per, reference, classes):
+        best = np.asarray(cs[int(np.argmax(rs))])
+        for e, c in zip(p, cs):
+            if any(c != best):
+                relative.setdefault(class_label(tuple(int(x) for x in np.asarray(c) ^ best)), []).append(e)
+    by_class = {label: float(np.mean(es)) for label, es in sorted(relative.items())}
     return (float(sums.sum() / counts.sum()), float(np.quantile(means, 0.05)), float(np.quantile(means, 0.95)),
-            float(np.mean(top)))
+            float(np.mean(top)), by_class)
 
 
 def main(argv=None) -> int:
@@ -128,7 +144,8 @@ def main(argv=None) -> int:
                 print(f"   exact: plan {ref[0]:.2f} s, {1e3 * ref[1]:.1f} ms per syndrome")
             reference = ref[2]
             print(f"   {'strategy':<18}{'chi':>5}{'plan [s]':>10}{'ms/syndrome':>14}{'cpu ms':>10}{'mean |d ln P|':>16}"
-                  f"{'90% interval':>22}{'top class':>12}   vs {ref_label}")
+                  f"{'90% interval':>22}{'top class':>12}   by class relative to the top one   vs {ref_label}")
+            classes = [[n.metadata["class"] for n in nets] for nets in groups]
             results = {}
             for name in names:
                 for chi in args.sweep_chis if name == "sweep" else args.chis:
@@ -137,10 +154,11 @@ def main(argv=None) -> int:
                     if isinstance(out, str):
                         print(f"   {name:<18}{chi:>5}   refused: {out}")
                         continue
-                    err, low, high, top = error_summary(out[2], reference)
+                    err, low, high, top, by_class = error_summary(out[2], reference, classes)
                     results[(name, chi)] = (out[1], err, out[3], top)
+                    relative = ", ".join(f"{label} {e:.1e}" for label, e in by_class.items())
                     print(f"   {name:<18}{chi:>5}{out[0]:>10.2f}{1e3 * out[1]:>14.2f}{1e3 * out[3]:>10.2f}{err:>16.2e}"
-                          f"{f'{low:.1e} .. {high:.1e}':>22}{top:>12.1e}", flush=True)
+                          f"{f'{low:.1e} .. {high:.1e}':>22}{top:>12.1e}   {relative}", flush=True)
                     scaling.setdefault((name, chi), []).append((code.n, out[1], out[3]))
             _target(results, args.chis, clock=0, label="wall")
             _target(results, args.chis, clock=2, label="cpu", quiet=True)
