@@ -82,7 +82,7 @@ BOOTSTRAP, BOOTSTRAP_SEED = 2000, 12345
 def error_summary(values, reference, classes) -> tuple[float, float, float, float, dict[str, float]]:
     """(mean |d ln P| over all classes, 5% and 95% bootstrap quantiles of that mean, mean |d ln P| of
     the reference's most likely class per syndrome, mean |d ln P| by class relative to that one:
-    label of c + c_top -> mean). ``classes``: per syndrome, the logical class of each value.
+    label of (c xor c_top) -> mean). ``classes``: per syndrome, the logical class of each value.
 
     The interval resamples whole syndromes with replacement (percentile bootstrap, common practice):
     a syndrome's classes are not independent draws. The mean over classes is dominated by a few
