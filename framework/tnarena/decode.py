@@ -42,14 +42,6 @@ def logical_classes(k: int) -> list[tuple[int, ...]]:
     return [tuple(c) for c in itertools.product((0, 1), repeat=2 * k)]
 
 
-def error_vector(code: PauliCode, error: np.ndarray) -> np.ndarray:
-    """``error`` as a flat uint8 symplectic vector, shape (2n,); refuses another length."""
-    error = np.asarray(error, dtype=np.uint8).reshape(-1)
-    if error.size != 2 * code.n:
-        raise TnarenaError(f"the error has {error.size} symplectic entries; the code needs 2n = {2 * code.n}.")
-    return error
-
-
 def relative_class(code: PauliCode, error: np.ndarray, pure: np.ndarray) -> tuple[int, ...]:
     """Logical class (a_1, b_1, ...) of ``error`` relative to ``pure`` (both shape (2n,)).
 
@@ -179,7 +171,7 @@ class Decoder:
 
     def decode_error(self, error: np.ndarray) -> DecodeResult:
         """Decode the syndrome of a known error and record whether the decision is wrong."""
-        error = error_vector(self.code, error)
+        error = self.code.error_vector(error)
         syndrome = self.code.syndrome(error)
         pure = self.pure_error(syndrome)
         return self._decode(syndrome, pure, self.true_class(error, pure))

@@ -27,7 +27,7 @@ import networkx as nx
 import numpy as np
 
 from tnarena.codes.core import PauliCode
-from tnarena.decode import SyndromeSolver, error_vector, relative_class
+from tnarena.decode import SyndromeSolver, relative_class
 from tnarena.errors import TnarenaError
 from tnarena.noise import validate_table
 
@@ -126,7 +126,7 @@ class MatchingDecoder:
     def decode_error(self, error: np.ndarray) -> MatchingResult:
         """Match the syndrome of a known error (shape (2n,)) and record whether it failed."""
         start = time.perf_counter()
-        error = error_vector(self.code, error)
+        error = self.code.error_vector(error)
         s = self.code.syndrome(error)
         pure = self.pure_error(s)
         return self._result(s, pure, self.true_class(error, pure), start)

@@ -136,14 +136,26 @@ class PauliCode:
         """Syndrome of ``error`` (shape (2n,)) against the stabilizer generators, shape (s,)."""
         return symplectic_products(self.stabilizers, error)[:, 0]
 
-    def syndromes(self, errors: np.ndarray) -> np.ndarray:
-        """Syndromes of many errors: shape (B, 2n) -> (B, s), uint8, row i the syndrome of errors[i]."""
-        errors = np.asarray(errors)
+    def error_vector(self, error: np.ndarray) -> np.ndarray:
+        """``error`` as a flat uint8 symplectic vector, shape (2n,); refuses another length."""
+        error = np.asarray(error, dtype=np.uint8).reshape(-1)
+        if error.size != 2 * self.n:
+            raise TnarenaError(f"the error has {error.size} symplectic entries; the code needs 2n = {2 * self.n}.")
+        return error
+
+    def error_rows(self, errors: np.ndarray) -> np.ndarray:
+        """``errors`` as uint8 symplectic rows, shape (B, 2n); refuses another shape."""
+        errors = np.asarray(errors, dtype=np.uint8)
         if errors.ndim != 2 or errors.shape[1] != 2 * self.n:
             raise TnarenaError(
                 f"the errors have shape {errors.shape}; the code needs (B, 2n) = (B, {2 * self.n}): one "
                 "symplectic row per error."
             )
+        return errors
+
+    def syndromes(self, errors: np.ndarray) -> np.ndarray:
+        """Syndromes of many errors: shape (B, 2n) -> (B, s), uint8, row i the syndrome of errors[i]."""
+        errors = self.error_rows(errors)
         # float products of 0/1 matrices are exact here and far faster than integer ones
         rows = self.syndrome_matrix.astype(float)
         return ((errors.astype(float) @ rows.T).astype(np.int64) & 1).astype(np.uint8)

@@ -39,7 +39,6 @@ import numpy as np
 
 from tnarena import gf2
 from tnarena.codes.core import PauliCode
-from tnarena.errors import TnarenaError
 from tnarena.network.batch import NetworkBatch
 from tnarena.network.structure import GENERATOR, QUBIT, DecodingNetwork, NetworkStructure
 from tnarena.noise import validate_table
@@ -166,11 +165,7 @@ class NetworkBuilder:
         error : shape (2n,), symplectic; logical_class : (a_1, b_1, ...) or None for L = I.
         An impossible class gives log_scale -inf and zero qubit arrays.
         """
-        base = np.asarray(error, dtype=np.uint8).reshape(-1)
-        if base.size != 2 * self.code.n:
-            raise TnarenaError(
-                f"the error has {base.size} symplectic entries; the code needs 2n = {2 * self.code.n}."
-            )
+        base = self.code.error_vector(error)
         possible, log_scales, blocks = self._qubit_blocks(base[None, :], logical_class)
         if not possible[0]:
             return self._zero()
@@ -187,14 +182,7 @@ class NetworkBuilder:
         ``network(errors[i], logical_class)`` for the j-th i where ``possible[i]``
         (the others are impossible: log_scale -inf).
         """
-        n = self.code.n
-        errors = np.asarray(errors, dtype=np.uint8)
-        if errors.ndim != 2 or errors.shape[1] != 2 * n:
-            raise TnarenaError(
-                f"the errors have shape {errors.shape}; the code needs (B, 2n) = (B, {2 * n}): one "
-                "symplectic row per error."
-            )
-        possible, log_scales, blocks = self._qubit_blocks(errors, logical_class)
+        possible, log_scales, blocks = self._qubit_blocks(self.code.error_rows(errors), logical_class)
         batch = log_scales.size
         stacks: list = [None] * self.structure.num_nodes
         shared = [(nodes, np.broadcast_to(copies[:, None], (len(nodes), batch) + copies.shape[1:]))

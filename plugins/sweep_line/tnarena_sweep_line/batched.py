@@ -31,12 +31,12 @@ import numpy as np
 from tnarena.network import NetworkBatch
 
 from tnarena_sweep_line.linalg import svd as _svd_one
-from tnarena_sweep_line.mps import Step
+from tnarena_sweep_line.mps import Step, _eye
 from tnarena_sweep_line.sharing import take
 
 
 def _identity(batch: int, k: int) -> np.ndarray:
-    return np.broadcast_to(np.eye(k), (batch, k, k))
+    return np.broadcast_to(_eye(k), (batch, k, k))
 
 
 def _qr(m: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
@@ -215,11 +215,11 @@ class BatchLineMPS:
         rest = block.reshape(batch, dl * 2, -1)
         if count == 2 and rest.shape[1] <= min(rest.shape[2], cap):
             # exact and canonical without a QR: an identity (left-orthogonal) site, then the block
-            eye = np.broadcast_to(np.eye(2 * dl).reshape(1, dl, 2, 2 * dl), (batch, dl, 2, 2 * dl))
+            eye = np.broadcast_to(_eye(2 * dl).reshape(1, dl, 2, 2 * dl), (batch, dl, 2, 2 * dl))
             return [eye, rest.reshape(batch, -1, 2, dr)]
         if count == 2 and rest.shape[2] <= cap:
             # the mirror image: the block, then an identity (right-orthogonal) site; the centre is the first
-            eye = np.broadcast_to(np.eye(2 * dr).reshape(1, 2 * dr, 2, dr), (batch, 2 * dr, 2, dr))
+            eye = np.broadcast_to(_eye(2 * dr).reshape(1, 2 * dr, 2, dr), (batch, 2 * dr, 2, dr))
             self._centre_offset = 0
             return [rest.reshape(batch, dl, 2, -1), eye]
         out = []

@@ -77,7 +77,6 @@ class LineMPS:
         self.discarded = 0.0
         self.flops = 0.0
         self.largest = 1
-        self._centre_offset = 0  # where the centre lands in the window just split
 
     def copy(self) -> "LineMPS":
         """An independent line in the same state (sites are never written in place: shared)."""
@@ -139,13 +138,12 @@ class LineMPS:
         else:
             block = self._general(np.ones((1, 1)), node, step)
         self.largest = max(self.largest, block.size)
-        self._centre_offset = count - 1
         self.sites[lo:hi] = self._split(block, count, cap)
         if count and not step.rescale:
-            self.center = lo + self._centre_offset
+            self.center = lo + count - 1
             return
         if count:
-            self.center = lo + self._centre_offset
+            self.center = lo + count - 1
             centre = self.sites[self.center]
             norm = math.sqrt(float(np.dot(centre.reshape(-1), centre.reshape(-1))))
         else:
