@@ -1,5 +1,6 @@
 """The sweep-line strategy against the exact strategy, Onsager's free energy, and refusals."""
 
+import dataclasses
 
 import numpy as np
 import pytest
@@ -334,8 +335,9 @@ def test_batched_duplicates_share_a_line_and_match_exact(catalog):
 
 def _moved_logicals(code):
     """The code's logicals with X-bar times every X-type generator left of it and Z-bar times every
-    Z-type generator below it: the same logical classes (the class probability sums over the whole
-    stabilizer group, so it cannot depend on the representative), on different qubits."""
+    Z-type generator below it: the same logical classes on different qubits (a class probability
+    sums over the whole stabilizer group, so it cannot depend on the representative: the
+    definition of the coset probability, common knowledge)."""
     n = code.n
     x_bar, z_bar = code.logicals[0, 0].copy(), code.logicals[0, 1].copy()
     x_column = code.qubit_positions[np.flatnonzero(x_bar[:n]), 0].mean()
@@ -354,14 +356,13 @@ def test_truncated_values_do_not_depend_on_the_logical_representative(catalog, d
     the legs of the relabelled generators, a permutation of each site's rows, which commutes with
     the SVD truncation. So even at a chi that truncates (chi 4, errors of 1e-4 and more against
     exact) the sweep gives the same values, to rounding, for either set of representatives."""
-    import dataclasses
-
     code = catalog.build_code("surface", "square", 7)
     moved = dataclasses.replace(code, logicals=_moved_logicals(code))
     assert not np.array_equal(moved.logicals, code.logicals)
     table = make_noise("depolarizing", code.n, 0.12)
     builders = [NetworkBuilder(c, table) for c in (code, moved)]
-    (ex, pe), (sw, _) = _pair(catalog, builders[0].structure)
+    ex, sw = catalog.strategy("exact"), catalog.strategy("sweep")
+    pe = ex.plan(builders[0].structure, ex.resolve({"search_time": 0.1}))
     params = sw.resolve({"chi": 4, "direction": direction})
     rng = np.random.default_rng(11)
     largest_error = 0.0
