@@ -96,10 +96,11 @@ def error_summary(values, reference, classes) -> tuple[float, float, float, floa
     counts = np.array([p.size for p in per])
     draws = _bootstrap_draws(len(per))
     means = sums[draws].sum(axis=1) / counts[draws].sum(axis=1)
-    top = [p[int(np.argmax(rs))] for p, rs in zip(per, reference)]
-    relative: dict[str, list[float]] = {}
+    top, relative = [], {}
     for p, rs, cs in zip(per, reference, classes):
-        best = np.asarray(cs[int(np.argmax(rs))])
+        first = int(np.argmax(rs))
+        top.append(p[first])
+        best = np.asarray(cs[first])
         for e, c in zip(p, cs):
             if any(c != best):
                 relative.setdefault(class_label(tuple(int(x) for x in np.asarray(c) ^ best)), []).append(e)
