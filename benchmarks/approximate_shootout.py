@@ -8,11 +8,14 @@ well above the largest chi compared so that its own error does not flatter the s
     .venv/bin/python benchmarks/approximate_shootout.py            # full run (long)
     .venv/bin/python benchmarks/approximate_shootout.py --sizes 9 --syndromes 5
 
-Prints, per (size, noise): for each strategy and chi, the median contraction time per
-syndrome (all classes that can be non-zero), the mean |error in ln P| per class with a 90%
-bootstrap interval over the syndromes, the mean error of each syndrome's most likely class and
-that of the others by their class relative to it (X: they differ by X-bar, and so on);
-then the target check: the sweep's time to reach the better quimb baseline's accuracy (and, for
+Every strategy runs at each singular-value cutoff of --cutoffs (relative to a bond's largest
+singular value in the sweep, columns and quimb_boundary; quimb_compressed reads it in its own
+mode, a relative sum of squares). Prints, per (size, noise): for each strategy, chi and cutoff,
+the median contraction time per syndrome (all classes that can be non-zero), the mean |error in
+ln P| per class with a 90% bootstrap interval over the syndromes, the mean error of each
+syndrome's most likely class and that of the others by their class relative to it (X: they
+differ by X-bar, and so on); then the target check: for every baseline setting (chi, cutoff),
+the time of the cheapest sweep setting of any chi and cutoff that reaches its accuracy (and, for
 information, the same on the most likely class alone), with the sampling noise of that
 comparison (a paired bootstrap of the ratio of mean errors, for that sweep setting and the one
 just cheaper), and the sweep's time against the number of qubits at fixed chi (fitted exponent).
@@ -136,6 +139,9 @@ def main(argv=None) -> int:
     ap.add_argument("--sweep-chis", type=int, nargs="+", default=[4, 6, 8, 12, 16, 24, 32, 48],
                     help="chi values for the sweep (default: a finer grid than --chis, so the cheapest sweep setting "
                          "at least as accurate as each baseline setting is found)")
+    ap.add_argument("--cutoffs", type=float, nargs="+", default=[1e-13, 1e-12],
+                    help="singular-value cutoffs, relative to the largest, that every strategy runs at (default "
+                         "1e-13 1e-12; each setting is one chi and one cutoff)")
     ap.add_argument("--ref-chi", type=int, default=96, help="chi of the sweep reference where exact is refused")
     ap.add_argument("--noises", nargs="+", default=["bit_flip", "depolarizing"], choices=["bit_flip", "depolarizing"])
     ap.add_argument("--syndromes", type=int, default=20, help="seeded syndromes per setting (default 20)")
@@ -147,7 +153,7 @@ def main(argv=None) -> int:
     missing = sorted(set(args.strategies) - set(names))
     if missing:
         print(f"(not installed, left out: {', '.join(missing)})")
-    scaling: dict[tuple[str, int], list[tuple[int, float]]] = {}
+    scaling: dict[tuple[str, int, float], list[tuple[int, float, float]]] = {}
     for size in args.sizes:
         code = catalog.build_code("surface", "square", size)
         for noise, rate in (("bit_flip", 0.1), ("depolarizing", 0.15)):
@@ -165,23 +171,26 @@ def main(argv=None) -> int:
             else:
                 print(f"   exact: plan {ref[0]:.2f} s, {1e3 * ref[1]:.1f} ms per syndrome")
             reference = ref[2]
-            print(f"   {'strategy':<18}{'chi':>5}{'plan [s]':>10}{'ms/syndrome':>14}{'cpu ms':>10}{'mean |d ln P|':>16}"
-                  f"{'90% interval':>22}{'top class':>12}   by class relative to the top one   vs {ref_label}")
+            print(f"   {'strategy':<18}{'chi':>5}{'cutoff':>8}{'plan [s]':>10}{'ms/syndrome':>14}{'cpu ms':>10}"
+                  f"{'mean |d ln P|':>16}{'90% interval':>22}{'top class':>12}   by class relative to the top one"
+                  f"   vs {ref_label}")
             classes = [[n.metadata["class"] for n in nets] for nets in groups]
             results = {}
             for name in names:
-                for chi in args.sweep_chis if name == "sweep" else args.chis:
-                    print(f"   ... {name} chi={chi}", file=sys.stderr, flush=True)
-                    out = run_setting(catalog.strategy(name), {"chi": chi}, structure, groups)
-                    if isinstance(out, str):
-                        print(f"   {name:<18}{chi:>5}   refused: {out}")
-                        continue
-                    err, low, high, top, by_class, sums = error_summary(out[2], reference, classes)
-                    results[(name, chi)] = (out[1], err, out[3], top, sums)
-                    relative = ", ".join(f"{label} {e:.1e}" for label, e in by_class.items())
-                    print(f"   {name:<18}{chi:>5}{out[0]:>10.2f}{1e3 * out[1]:>14.2f}{1e3 * out[3]:>10.2f}{err:>16.2e}"
-                          f"{f'{low:.1e} .. {high:.1e}':>22}{top:>12.1e}   {relative}", flush=True)
-                    scaling.setdefault((name, chi), []).append((code.n, out[1], out[3]))
+                for cutoff in args.cutoffs:
+                    for chi in args.sweep_chis if name == "sweep" else args.chis:
+                        print(f"   ... {name} chi={chi} cutoff={cutoff:g}", file=sys.stderr, flush=True)
+                        out = run_setting(catalog.strategy(name), {"chi": chi, "cutoff": cutoff}, structure, groups)
+                        if isinstance(out, str):
+                            print(f"   {name:<18}{chi:>5}{cutoff:>8.0e}   refused: {out}")
+                            continue
+                        err, low, high, top, by_class, sums = error_summary(out[2], reference, classes)
+                        results[(name, chi, cutoff)] = (out[1], err, out[3], top, sums)
+                        relative = ", ".join(f"{label} {e:.1e}" for label, e in by_class.items())
+                        print(f"   {name:<18}{chi:>5}{cutoff:>8.0e}{out[0]:>10.2f}{1e3 * out[1]:>14.2f}"
+                              f"{1e3 * out[3]:>10.2f}{err:>16.2e}{f'{low:.1e} .. {high:.1e}':>22}{top:>12.1e}"
+                              f"   {relative}", flush=True)
+                        scaling.setdefault((name, chi, cutoff), []).append((code.n, out[1], out[3]))
             _target(results, args.chis, clock=0, label="wall")
             _target(results, args.chis, clock=2, label="cpu", quiet=True)
             _target(results, args.chis, clock=2, label="cpu time at equal error on the most likely class", quiet=True,
@@ -195,35 +204,37 @@ ACCURACY_FLOOR = 1e-10
 
 
 def _target(results, chis, clock: int = 0, label: str = "wall", quiet: bool = False, error: int = 1) -> None:
-    """For each baseline setting: the cheapest sweep setting at least as accurate, and the speed ratio,
-    by wall time (clock 0) or this process's CPU time (clock 2; steadier on a shared machine).
+    """For each baseline setting (chi, cutoff): the cheapest sweep setting (any chi and cutoff) at least
+    as accurate, and the speed ratio, by wall time (clock 0) or this process's CPU time (clock 2;
+    steadier on a shared machine).
 
     error 1 compares the mean |d ln P| over all classes (the target's measure); error 3 that of the
     most likely class only (for information: what a decoder's decision rests on)."""
-    sweep = sorted((r[clock], chi, r[error]) for (n, chi), r in results.items() if n == "sweep")
+    sweep = sorted((r[clock], (chi, cut), r[error]) for (n, chi, cut), r in results.items() if n == "sweep")
     if not sweep:
         return
     ratios = []
-    for (name, chi_b), r in sorted(results.items()):
+    for (name, chi_b, cut_b), r in sorted(results.items()):
         if name not in BASELINES:
             continue
+        base = f"{name} {_setting((chi_b, cut_b))}"
         t_b, err_b = r[clock], r[error]
         goal = max(err_b, ACCURACY_FLOOR)
         hit = next(((t, chi, err) for t, chi, err in sweep if err <= goal), None)
         if hit is None:
             if not quiet:
-                print(f"   vs {name} chi={chi_b} (error {err_b:.1e}): no sweep setting compared is as accurate")
+                print(f"   vs {base} (error {err_b:.1e}): no sweep setting compared is as accurate")
             ratios.append(0.0)
             continue
         ratios.append(t_b / hit[0])
         if not quiet:
-            print(f"   vs {name} chi={chi_b} (error {err_b:.1e}, {1e3 * t_b:.1f} ms): sweep chi={hit[1]} "
+            print(f"   vs {base} (error {err_b:.1e}, {1e3 * t_b:.1f} ms): sweep {_setting(hit[1])} "
                   f"(error {hit[2]:.1e}, {1e3 * hit[0]:.1f} ms) is {t_b / hit[0]:.1f}x faster")
             if error == 1:
                 cheaper = [s for s in sweep if s[0] < hit[0]]
-                for t, chi, _ in [hit] + cheaper[-1:]:
-                    ratio, low, high, share = paired_error_ratio(results[("sweep", chi)][4], r[4])
-                    print(f"      sampling noise: mean error of sweep chi={chi} / {name} chi={chi_b} = {ratio:.2f} "
+                for t, setting, _ in [hit] + cheaper[-1:]:
+                    ratio, low, high, share = paired_error_ratio(results[("sweep",) + setting][4], r[4])
+                    print(f"      sampling noise: mean error of sweep {_setting(setting)} / {base} = {ratio:.2f} "
                           f"(90% paired interval {low:.2f} .. {high:.2f}; the sweep at least as accurate in "
                           f"{100 * share:.0f}% of resamples), {t_b / t:.1f}x faster")
     if not ratios:
@@ -236,9 +247,14 @@ def _target(results, chis, clock: int = 0, label: str = "wall", quiet: bool = Fa
         print(f"   (not the target) {label}: {listed}")
 
 
+def _setting(setting: tuple[int, float]) -> str:
+    chi, cutoff = setting
+    return f"chi={chi} cutoff={cutoff:.0e}"
+
+
 def _scaling(scaling) -> None:
     print("\n== time per syndrome against qubits at fixed chi (fitted exponent of t ~ n^a, wall and cpu)")
-    for (name, chi), points in sorted(scaling.items()):
+    for (name, chi, cutoff), points in sorted(scaling.items()):
         ns = sorted({n for n, _, _ in points})
         if len(ns) < 2:
             continue
@@ -247,7 +263,7 @@ def _scaling(scaling) -> None:
         cpu = {n: max(c for m, _, c in points if m == n) for n in ns}
         a = np.polyfit(np.log(ns), np.log([wall[n] for n in ns]), 1)[0]
         b = np.polyfit(np.log(ns), np.log([cpu[n] for n in ns]), 1)[0]
-        print(f"   {name:<18} chi={chi:<3} exponent {a:.2f} wall, {b:.2f} cpu  "
+        print(f"   {name:<18} chi={chi:<3} cutoff={cutoff:.0e} exponent {a:.2f} wall, {b:.2f} cpu  "
               f"({', '.join(f'n={n}: {1e3 * wall[n]:.1f} / {1e3 * cpu[n]:.1f} ms' for n in ns)})")
 
 
