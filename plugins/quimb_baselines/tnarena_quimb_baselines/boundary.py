@@ -5,11 +5,10 @@ Cirac, arXiv:cond-mat/0407066 (2004); from memory, the method is common
 practice), as implemented by quimb's ``TensorNetwork2D.contract_boundary``.
 
 ``plan`` works out, once per structure, the unit cell of every node (see
-:mod:`tnarena_quimb_baselines.grid`) and so the grid layout; ``contract``
-tags the network's tensors with their cells, fuses each cell into one site
-tensor with quimb (``contract_tags``, then ``fuse_multibonds``), views the
-result as a ``TensorNetwork2D`` and lets quimb contract its boundary inwards
-with bond chi, equalizing norms as it goes so the exponent is carried
+:mod:`tnarena_quimb_baselines.grid`) and how each cell is fused into one site
+tensor (:mod:`tnarena_quimb_baselines.fusion`); ``contract`` builds the sites
+with one einsum per cell, as a ``TensorNetwork2D``, and lets quimb contract
+its boundary inwards with bond chi, equalizing norms as it goes so the exponent is carried
 separately (values far below float64's range stay finite in ln).
 """
 
@@ -20,19 +19,16 @@ from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import Any
 
-import numpy as np
-
 from tnarena.blas import one_blas_thread
 from tnarena.errors import TnarenaError
 from tnarena.network import DecodingNetwork, NetworkStructure
-from tnarena.network.quimb_adapter import to_quimb
 from tnarena.strategy import Estimate, Parameter, Strategy
 
+from tnarena_quimb_baselines.fusion import CellRecipe, cell_recipes, fused_grid
 from tnarena_quimb_baselines.grid import GridLayout, square_grid_layout
 from tnarena_quimb_baselines.scalars import log_of_stripped, run_or_zero
 
 SIDES = ("xmin", "xmax", "ymin", "ymax")
-SITE_TAG, X_TAG, Y_TAG = "I{},{}", "X{}", "Y{}"
 
 
 def parse_sequence(value: Any) -> tuple[str, ...] | None:
@@ -51,9 +47,10 @@ def parse_sequence(value: Any) -> tuple[str, ...] | None:
 
 @dataclass
 class BoundaryPlan:
-    """The grid layout of one structure and the boundary settings."""
+    """The grid layout of one structure, how its cells are fused, and the boundary settings."""
 
     layout: GridLayout
+    recipes: tuple[CellRecipe, ...]
     chi: int
     cutoff: float
     sequence: tuple[str, ...] | None
@@ -79,8 +76,10 @@ class QuimbBoundary(Strategy):
         return params
 
     def plan(self, structure: NetworkStructure, params: Mapping[str, Any]) -> BoundaryPlan:
+        layout = square_grid_layout(structure)
         return BoundaryPlan(
-            layout=square_grid_layout(structure),
+            layout=layout,
+            recipes=cell_recipes(structure, layout),
             chi=int(params["chi"]),
             cutoff=float(params["cutoff"]),
             sequence=parse_sequence(params["sequence"]),
@@ -99,7 +98,9 @@ class QuimbBoundary(Strategy):
         bound on the true peak; ``max_bond`` reached; ``final_flops`` of the
         final exact step only. No ``flops`` and no ``discarded_weight``.
         """
-        grid = fused_grid(plan.layout, network)
+        if network.structure.num_nodes != len(plan.layout.cells):
+            raise TnarenaError("strategy 'quimb_boundary' got a network whose structure is not the one it planned for.")
+        grid = fused_grid(plan.recipes, plan.layout, network)
         largest = max(t.size for t in grid)
         rest = run_or_zero(lambda: grid.contract_boundary(
             max_bond=plan.chi,
@@ -122,30 +123,3 @@ class QuimbBoundary(Strategy):
         }
         return Estimate(log_of_stripped(mantissa, exponent, strategy=self.name), stats)
 
-
-def fused_grid(layout: GridLayout, network: DecodingNetwork):
-    """The network as a quimb ``TensorNetwork2D``: one tensor per unit cell, single bonds between neighbours.
-
-    Tags each tensor with its cell (``I{row},{col}``, ``X{row}``, ``Y{col}``),
-    puts a scalar 1 on empty cells (quimb looks every site up), contracts every
-    cell to one tensor and fuses the several bonds two cells may share into
-    one. Neighbouring cells that share no bond need nothing: quimb skips them.
-    """
-    import quimb.tensor as qtn
-
-    if network.structure.num_nodes != len(layout.cells):
-        raise TnarenaError("strategy 'quimb_boundary' got a network whose structure is not the one it planned for.")
-    tn = to_quimb(network)
-    for node, (row, col) in enumerate(layout.cells):
-        tn[f"NODE{node}"].add_tag((SITE_TAG.format(row, col), X_TAG.format(row), Y_TAG.format(col)))
-    for row, col in layout.empty:
-        tags = (SITE_TAG.format(row, col), X_TAG.format(row), Y_TAG.format(col))
-        tn.add_tensor(qtn.Tensor(np.ones(()), inds=(), tags=tags))
-    lx, ly = layout.shape
-    for row in range(lx):
-        for col in range(ly):
-            tag = SITE_TAG.format(row, col)
-            if len(tn.tag_map[tag]) > 1:
-                tn.contract_tags_(tag, optimize="auto")
-    tn.fuse_multibonds_()
-    return tn.view_as_(qtn.TensorNetwork2D, Lx=lx, Ly=ly, site_tag_id=SITE_TAG, x_tag_id=X_TAG, y_tag_id=Y_TAG)
