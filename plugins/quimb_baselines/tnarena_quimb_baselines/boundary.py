@@ -8,8 +8,9 @@ practice), as implemented by quimb's ``TensorNetwork2D.contract_boundary``.
 :mod:`tnarena_quimb_baselines.grid`) and how each cell is fused into one site
 tensor (:mod:`tnarena_quimb_baselines.fusion`); ``contract`` builds the sites
 with one einsum per cell, as a ``TensorNetwork2D``, and lets quimb contract
-its boundary inwards with bond chi, equalizing norms as it goes so the exponent is carried
-separately (values far below float64's range stay finite in ln).
+its boundary inwards with bond chi, equalizing norms as it goes so the
+exponent is carried separately (values far below float64's range stay finite
+in ln).
 """
 
 from __future__ import annotations
