@@ -16,10 +16,14 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from tnarena.errors import TnarenaError
 from tnarena.network import DecodingNetwork, NetworkStructure
 from tnarena_quimb_baselines.grid import Cell, GridLayout
 
 SITE_TAG, X_TAG, Y_TAG = "I{},{}", "X{}", "Y{}"
+
+#: Most distinct bonds among one cell's nodes: np.einsum labels axes with the 52 ASCII letters.
+MAX_CELL_LEGS = 52
 
 
 @dataclass(frozen=True)
@@ -65,6 +69,10 @@ def cell_recipes(structure: NetworkStructure, layout: GridLayout) -> tuple[CellR
                 recipes.append(CellRecipe(cell, (), (), (), False, (), ()))
                 continue
             used = sorted({b for v in nodes for b in structure.node_bonds[v]})
+            if len(used) > MAX_CELL_LEGS:
+                raise TnarenaError(
+                    f"strategy 'quimb_boundary' would fuse {len(used)} bonds in the unit cell {cell}, over the "
+                    f"{MAX_CELL_LEGS} numpy's einsum can label; use sweep or quimb_compressed for this network.")
             label = {b: i for i, b in enumerate(used)}
             to: dict[Cell, list[int]] = {}
             for b in used:
