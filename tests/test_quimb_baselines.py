@@ -11,7 +11,8 @@ import pytest
 
 from reference import ising_grid
 from tnarena.errors import TnarenaError
-from tnarena.network import DecodingNetwork, NetworkBuilder
+from tnarena.network import DecodingNetwork, NetworkBuilder, NetworkStructure
+from tnarena.network.structure import GENERATOR, QUBIT
 from tnarena.noise import make_noise, sample_errors
 
 CLASSES = [(0, 0), (1, 0), (0, 1), (1, 1)]
@@ -164,3 +165,19 @@ def test_boundary_fills_an_empty_cell(catalog, seed):
     assert plan.layout.empty == ((1, 1),)
     want = ex.contract(ex.plan(network.structure, ex.resolve({"search_time": 0.1})), network).log_value
     assert qb.contract(plan, network).log_value == pytest.approx(want, rel=1e-10)
+
+
+def test_boundary_refuses_a_cell_with_more_bonds_than_einsum_labels(catalog):
+    """One generator with 54 single-bond qubits on the edge midpoints of unit cell (0, 0): fusing
+    that cell needs 54 einsum labels, over numpy's 52, so the plan is refused with a message."""
+    qubits = 54
+    positions = [(0.25, 0.25)] + [(0.5, 0.0) if q % 2 else (0.0, 0.5) for q in range(qubits)]
+    structure = NetworkStructure(
+        kinds=(GENERATOR,) + (QUBIT,) * qubits, labels=tuple(range(qubits + 1)),
+        positions=np.array(positions, dtype=float),
+        bonds=np.array([(0, 1 + q) for q in range(qubits)]),
+        node_bonds=(tuple(range(qubits)),) + tuple((q,) for q in range(qubits)),
+    )
+    qb = catalog.strategy("quimb_boundary")
+    with pytest.raises(TnarenaError, match="54 bonds in the unit cell"):
+        qb.plan(structure, qb.resolve({"chi": 8}))
