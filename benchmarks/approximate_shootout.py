@@ -182,12 +182,12 @@ def main(argv=None) -> int:
                         print(f"   ... {name} chi={chi} cutoff={cutoff:g}", file=sys.stderr, flush=True)
                         out = run_setting(catalog.strategy(name), {"chi": chi, "cutoff": cutoff}, structure, groups)
                         if isinstance(out, str):
-                            print(f"   {name:<18}{chi:>5}{cutoff:>8.0e}   refused: {out}")
+                            print(f"   {name:<18}{chi:>5}{cutoff:>8g}   refused: {out}")
                             continue
                         err, low, high, top, by_class, sums = error_summary(out[2], reference, classes)
                         results[(name, chi, cutoff)] = (out[1], err, out[3], top, sums)
                         relative = ", ".join(f"{label} {e:.1e}" for label, e in by_class.items())
-                        print(f"   {name:<18}{chi:>5}{cutoff:>8.0e}{out[0]:>10.2f}{1e3 * out[1]:>14.2f}"
+                        print(f"   {name:<18}{chi:>5}{cutoff:>8g}{out[0]:>10.2f}{1e3 * out[1]:>14.2f}"
                               f"{1e3 * out[3]:>10.2f}{err:>16.2e}{f'{low:.1e} .. {high:.1e}':>22}{top:>12.1e}"
                               f"   {relative}", flush=True)
                         scaling.setdefault((name, chi, cutoff), []).append((code.n, out[1], out[3]))
@@ -249,7 +249,7 @@ def _target(results, chis, clock: int = 0, label: str = "wall", quiet: bool = Fa
 
 def _setting(setting: tuple[int, float]) -> str:
     chi, cutoff = setting
-    return f"chi={chi} cutoff={cutoff:.0e}"
+    return f"chi={chi} cutoff={cutoff:g}"
 
 
 def _scaling(scaling) -> None:
@@ -263,7 +263,7 @@ def _scaling(scaling) -> None:
         cpu = {n: max(c for m, _, c in points if m == n) for n in ns}
         a = np.polyfit(np.log(ns), np.log([wall[n] for n in ns]), 1)[0]
         b = np.polyfit(np.log(ns), np.log([cpu[n] for n in ns]), 1)[0]
-        print(f"   {name:<18} chi={chi:<3} cutoff={cutoff:.0e} exponent {a:.2f} wall, {b:.2f} cpu  "
+        print(f"   {name:<18} chi={chi:<3} cutoff={cutoff:g} exponent {a:.2f} wall, {b:.2f} cpu  "
               f"({', '.join(f'n={n}: {1e3 * wall[n]:.1f} / {1e3 * cpu[n]:.1f} ms' for n in ns)})")
 
 
