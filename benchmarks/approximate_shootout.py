@@ -191,9 +191,9 @@ def main(argv=None) -> int:
                               f"{1e3 * out[3]:>10.2f}{err:>16.2e}{f'{low:.1e} .. {high:.1e}':>22}{top:>12.1e}"
                               f"   {relative}", flush=True)
                         scaling.setdefault((name, chi, cutoff), []).append((code.n, out[1], out[3]))
-            _target(results, args.chis, clock=0, label="wall")
-            _target(results, args.chis, clock=2, label="cpu", quiet=True)
-            _target(results, args.chis, clock=2, label="cpu time at equal error on the most likely class", quiet=True,
+            _target(results, clock=0, label="wall")
+            _target(results, clock=2, label="cpu", quiet=True)
+            _target(results, clock=2, label="cpu time at equal error on the most likely class", quiet=True,
                     error=3)
     _scaling(scaling)
     return 0
@@ -203,7 +203,7 @@ def main(argv=None) -> int:
 ACCURACY_FLOOR = 1e-10
 
 
-def _target(results, chis, clock: int = 0, label: str = "wall", quiet: bool = False, error: int = 1) -> None:
+def _target(results, clock: int = 0, label: str = "wall", quiet: bool = False, error: int = 1) -> None:
     """For each baseline setting (chi, cutoff): the cheapest sweep setting (any chi and cutoff) at least
     as accurate, and the speed ratio, by wall time (clock 0) or this process's CPU time (clock 2;
     steadier on a shared machine).

@@ -139,11 +139,10 @@ class LineMPS:
             block = self._general(np.ones((1, 1)), node, step)
         self.largest = max(self.largest, block.size)
         self.sites[lo:hi] = self._split(block, count, cap)
-        if count and not step.rescale:
-            self.center = lo + count - 1
-            return
         if count:
             self.center = lo + count - 1
+            if not step.rescale:
+                return
             centre = self.sites[self.center]
             norm = math.sqrt(float(np.dot(centre.reshape(-1), centre.reshape(-1))))
         else:
