@@ -149,11 +149,71 @@ def test_ising_free_energy_matches_onsager(catalog, beta):
     ({"truncate": "row"}, "parameter 'truncate' must be one of layer, node, not 'row'"),
     ({"sides": 3}, "parameter 'sides' must be one of 1, 2, not 3"),
     ({"sides": "both"}, "parameter 'sides' takes one of 1, 2, not 'both'"),
-    ({"bond": 3}, "has no parameter 'bond'; its parameters are: chi, direction, cutoff, truncate, sides"),
+    ({"chi": 8, "far_chi": 16}, r"'far_chi' \(16\) must not exceed 'chi' \(8\)"),
+    ({"chi": 8, "far_chi": 4, "truncate": "node"}, "'far_chi' counts layers: it needs truncate = 'layer'"),
+    ({"far_chi": -1}, "parameter 'far_chi' = -1 is outside its range"),
+    ({"near_layers": -2}, "parameter 'near_layers' = -2 is outside its range"),
+    ({"bond": 3}, "has no parameter 'bond'; its parameters are: chi, direction, cutoff, truncate, sides, far_chi, "
+                  "near_layers"),
 ])
 def test_bad_parameters_are_refused(catalog, params, message):
     with pytest.raises(TnarenaError, match=message):
         catalog.strategy("sweep").resolve(params)
+
+
+def test_layer_chis_give_chi_to_the_layers_before_the_line_stops():
+    """The rule documented in tnarena_sweep_line.layer_chis, on a line of 3 layer ends and a trailing op
+    (the op after the last end is joined exactly at the middle cut): counted back from the stop."""
+    from tnarena_sweep_line import layer_chis
+
+    ends = [False, True, False, True, False, True, False]
+    assert layer_chis(ends, 8, 4, 1) == [4, 4, 4, 4, 8, 8, 8]
+    assert layer_chis(ends, 8, 4, 0) == [4, 4, 4, 4, 4, 4, 8]
+    assert layer_chis(ends, 8, 4, 3) == [8] * 7
+    assert layer_chis([False] * 3, 8, 4, 0) == [8] * 3  # truncate = 'node': no layers, chi throughout
+
+
+@pytest.mark.parametrize("noise_name", ["bit_flip", "depolarizing"])
+def test_far_chi_on_no_layer_is_the_uniform_sweep(catalog, noise_name):
+    """far_chi = chi, or near_layers covering every layer, leaves every cut at chi: ln P equals the plain
+    sweep's bit for bit (square d = 9, where chi = 4 truncates)."""
+    code = catalog.build_code("surface", "square", 9)
+    table = make_noise(noise_name, code.n, 0.12)
+    builder = NetworkBuilder(code, table)
+    sw = catalog.strategy("sweep")
+    plans = [sw.plan(builder.structure, sw.resolve(p)) for p in (
+        {"chi": 4}, {"chi": 4, "far_chi": 4, "near_layers": 0}, {"chi": 4, "far_chi": 2, "near_layers": 1000})]
+    rng = np.random.default_rng(5)
+    for _ in range(3):
+        network = builder.network(sample_errors(table, rng))
+        values = [sw.contract(plan, network) for plan in plans]
+        assert values[0].stats["discarded_weight"] > 0  # chi = 4 does truncate here
+        assert values[0].log_value == values[1].log_value == values[2].log_value
+
+
+def test_a_tapered_sweep_sits_between_its_two_uniform_sweeps(catalog):
+    """Against exact (30 seeded instances, square d = 7, depolarizing 0.15): chi = 8 with far_chi = 2 on all
+    but the last 2 layers before the lines meet is no less accurate than chi = 2 throughout and no more
+    accurate than chi = 8 throughout, so the far layers really are cut to far_chi and the near ones to chi;
+    at chi = far_chi = 64 it equals exact to 1e-10 relative."""
+    code = catalog.build_code("surface", "square", 7)
+    table = make_noise("depolarizing", code.n, 0.15)
+    builder = NetworkBuilder(code, table)
+    ex, sw = catalog.strategy("exact"), catalog.strategy("sweep")
+    pe = ex.plan(builder.structure, ex.resolve({"search_time": 0.2}))
+    settings = {"chi 2": {"chi": 2}, "taper": {"chi": 8, "far_chi": 2, "near_layers": 2}, "chi 8": {"chi": 8},
+                "chi 64": {"chi": 64, "far_chi": 64}}
+    plans = {k: sw.plan(builder.structure, sw.resolve(p)) for k, p in settings.items()}
+    errors = {k: [] for k in settings}
+    wants = []
+    for seed in range(30):
+        network = builder.network(sample_errors(table, np.random.default_rng(seed)))
+        wants.append(ex.contract(pe, network).log_value)
+        for k, plan in plans.items():
+            errors[k].append(abs(sw.contract(plan, network).log_value - wants[-1]))
+    means = {k: float(np.mean(v)) for k, v in errors.items()}
+    assert means["chi 8"] < means["taper"] < means["chi 2"], means
+    assert np.all(np.array(errors["chi 64"]) <= 1e-10 * np.abs(wants)), means
 
 
 def _relative_gap(want: float, got: float) -> float:
@@ -166,10 +226,11 @@ BATCH_SETTINGS = [
     {"chi": 2},  # truncation binds (checked below)
     {"chi": 64},  # no truncation
     {"chi": 2, "truncate": "node", "sides": 1},
+    {"chi": 4, "far_chi": 2, "near_layers": 1},
 ]
 
 
-@pytest.mark.parametrize("params", BATCH_SETTINGS, ids=["chi2", "chi64", "chi2-node-one-sided"])
+@pytest.mark.parametrize("params", BATCH_SETTINGS, ids=["chi2", "chi64", "chi2-node-one-sided", "chi4-far2"])
 @pytest.mark.parametrize("noise_name", ["bit_flip", "depolarizing"])
 @pytest.mark.parametrize("lattice", ["square", "hexagonal", "delaunay"])
 def test_batched_decoding_equals_one_at_a_time(catalog, lattice, noise_name, params):

@@ -7,7 +7,10 @@ folded into a neighbour (see :mod:`tnarena_sweep_line.merge`). With
 ``truncate = 'layer'`` (default) bonds may grow to 2 chi while the line
 crosses one layer (one lattice spacing along the direction) and are cut to
 chi by SVD in canonical form when it has crossed it, where the line is
-straight; with ``'node'`` every new bond is cut to chi at once. Incoming
+straight; with ``'node'`` every new bond is cut to chi at once. With ``far_chi`` set, only
+the last ``near_layers`` layers before a line stops are cut to chi and earlier ones to far_chi:
+a truncation error made far from where the lines are joined is mostly damped by the layers
+absorbed after it (measured in benchmarks/README.md), so those layers can be cut harder. Incoming
 bonds that are not next to each other on the line (ties in projection,
 overlapping nodes, non-planar drawings) are brought together by swaps first. The geometry (order, swaps,
 windows) is worked out once per structure; contracting replays it.
@@ -66,7 +69,6 @@ class SweepPlan:
     chi: int
     cutoff: float
     layout: FoldedLayout
-    cap: int  # most singular values kept while absorbing
     fold_paths: dict = dataclasses.field(default_factory=dict)  # einsum paths of the batched fold, by group
     memo: dict = dataclasses.field(default_factory=dict, repr=False)  # (piece, side) -> _SideMemo
 
@@ -122,11 +124,23 @@ class SweepLine(Strategy):
                   "2 chi inside it), or after every node", choices=("layer", "node")),
         Parameter("sides", "int", 2, "sweep from one end (1), or from both ends to a middle cut where the two "
                   "lines are joined exactly (2)", choices=(1, 2)),
+        Parameter("far_chi", "int", 0, "bond dimension for layers more than near_layers before the line stops "
+                  "(0: chi); truncation errors made there are mostly damped before the lines meet", minimum=0,
+                  maximum=4096),
+        Parameter("near_layers", "int", 6, "layers before the line stops that are cut to chi when far_chi is set",
+                  minimum=0, maximum=100000),
     )
 
     def resolve(self, given=None):
         params = super().resolve(given)
         parse_direction(params["direction"])
+        far = params["far_chi"]
+        if far > params["chi"]:
+            raise TnarenaError(
+                f"strategy 'sweep' parameter 'far_chi' ({far}) must not exceed 'chi' ({params['chi']}): chi is the "
+                "bond dimension near where the line stops, the largest; 0 means far_chi = chi.")
+        if far and far < params["chi"] and params["truncate"] != "layer":
+            raise TnarenaError("strategy 'sweep' parameter 'far_chi' counts layers: it needs truncate = 'layer'.")
         return params
 
     def plan(self, structure: NetworkStructure, params: Mapping[str, Any]) -> SweepPlan:
@@ -143,6 +157,7 @@ class SweepLine(Strategy):
                 best = (cost, schedules)
         schedules = best[1]
         chi = int(params["chi"])
+        far_chi = int(params["far_chi"]) or chi
         layered = params["truncate"] == "layer"
         steps = []
         for group in schedules:
@@ -151,12 +166,13 @@ class SweepLine(Strategy):
                 ends = layer_ends(layout, sched) if layered else [False] * len(sched.ops)
                 if len(group) == 2 and ends:
                     ends[-1] = False  # the two lines are joined exactly, wide bonds and all
+                chis = layer_chis(ends, chi, far_chi, int(params["near_layers"]))
                 steps_here = [_compile(op, layout, e) for op, e in zip(sched.ops, ends)]
-                per_side.append([dataclasses.replace(st, rescale=(k % RESCALE_EVERY == 0 or st.end))
-                                 for k, st in enumerate(steps_here)])
+                per_side.append([dataclasses.replace(st, rescale=(k % RESCALE_EVERY == 0 or st.end), chi=c,
+                                                     cap=LAYER_SLACK * c if layered else c)
+                                 for k, (st, c) in enumerate(zip(steps_here, chis))])
             steps.append(tuple(per_side))
-        cap = LAYER_SLACK * chi if layered else chi
-        return SweepPlan(schedules, steps, chi, float(params["cutoff"]), layout, cap)
+        return SweepPlan(schedules, steps, chi, float(params["cutoff"]), layout)
 
     def contract(self, plan: SweepPlan, network: DecodingNetwork) -> Estimate:
         with _blas().limit(limits=1, user_api="blas"):  # many small SVDs: threads only wait on each other
@@ -276,12 +292,11 @@ def _run_resuming(steps: list[Step], arrays: list, plan: SweepPlan, key: tuple[i
                 break
     mps = mps or LineMPS(plan.chi, plan.cutoff)
     snapshots = [s for s in (memo.snapshots if memo else []) if s[0] <= start]
-    cap = plan.cap
     for k in range(start, len(steps)):
         step = steps[k]
-        mps.apply(step, None if step.node < 0 else arrays[step.node], cap)
+        mps.apply(step, None if step.node < 0 else arrays[step.node], step.cap)
         if step.end:
-            mps.compress()
+            mps.compress(step.chi)
             snapshots = (snapshots + [(k + 1, mps.copy())])[-SNAPSHOTS:]
         if mps.log_value == -math.inf:
             break
@@ -298,7 +313,6 @@ def _run_batch(steps: list[Step], arrays: list, plan: SweepPlan,
     """
     groups = PrefixGroups(batch)
     mps = _batched.BatchLineMPS(groups.count, plan.chi, plan.cutoff)
-    cap = plan.cap
     start = 0
     for stop in [k + 1 for k, step in enumerate(steps) if step.end] + [len(steps)]:
         layer = steps[start:stop]
@@ -308,11 +322,25 @@ def _run_batch(steps: list[Step], arrays: list, plan: SweepPlan,
             mps = mps.take(parent)
         mine = {v: arrays[v] if groups.count == batch else take(arrays[v], groups.rep) for v in nodes}
         for step in layer:
-            mps.apply(step, None if step.node < 0 else mine[step.node], cap)
+            mps.apply(step, None if step.node < 0 else mine[step.node], step.cap)
             if step.end:
-                mps.compress()
+                mps.compress(step.chi)
         start = stop
     return mps, groups.labels
+
+
+def layer_chis(ends: Sequence[bool], chi: int, far_chi: int, near_layers: int) -> list[int]:
+    """Per op of one line: the bond dimension its layer is cut to when the layer ends.
+
+    ``ends`` flags the ops after which a layer ends. The last ``near_layers`` layers before the
+    line stops, and the ops after its last layer end, get ``chi``; earlier layers ``far_chi``.
+    """
+    out = []
+    remaining = sum(ends)  # layer ends at or after this op
+    for end in ends:
+        out.append(chi if remaining <= near_layers else far_chi)
+        remaining -= bool(end)
+    return out
 
 
 def _piece_schedules(layout: FoldedLayout, angle: float, piece: list[int], sides: int) -> tuple[SweepSchedule, ...]:

@@ -239,9 +239,9 @@ class BatchLineMPS:
         out.append(rest.reshape(batch, dl, 2, dr))
         return out
 
-    def compress(self) -> None:
+    def compress(self, chi: int = 0) -> None:
         """As :meth:`LineMPS.compress`, with a common kept count per bond."""
-        sites, chi, batch = self.sites, self.chi, self.batch
+        sites, chi, batch = self.sites, chi or self.chi, self.batch
         wide = [i for i in range(len(sites) - 1) if sites[i].shape[3] > chi]
         if not wide:
             return

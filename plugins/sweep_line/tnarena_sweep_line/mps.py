@@ -45,9 +45,11 @@ class Step:
         None otherwise
     axes, perm : the general path, np.tensordot axes and the transpose into
         (D_left, new legs..., D_right)
-    end : a layer ends after this step (cut wide bonds to chi)
+    end : a layer ends after this step (cut wide bonds to ``chi``)
     rescale : divide the centre by its norm after this step (the log carried);
         every few steps is enough to stay far from under- and overflow
+    cap : most singular values a new bond keeps while this step's layer is absorbed
+    chi : most singular values a bond keeps when this step's layer ends (0: the line's own chi)
     """
 
     lo: int
@@ -59,6 +61,8 @@ class Step:
     perm: tuple[int, ...]
     end: bool
     rescale: bool = True
+    cap: int = 0
+    chi: int = 0
 
 
 class LineMPS:
@@ -160,13 +164,14 @@ class LineMPS:
         self.flops += out.size * (2 ** len(step.axes[0]))
         return out.transpose(step.perm)
 
-    def compress(self) -> None:
-        """Cut every bond wider than chi by one sweep of truncated SVDs across the wide bonds.
+    def compress(self, chi: int = 0) -> None:
+        """Cut every bond wider than ``chi`` (0: the line's chi) by one sweep of truncated SVDs
+        across the wide bonds.
 
         The sweep starts from the end of the wide range nearer the centre and
         leaves the centre at the other end (LQ/QR where a bond is not wide).
         """
-        sites, chi = self.sites, self.chi
+        sites, chi = self.sites, chi or self.chi
         wide = [i for i in range(len(sites) - 1) if sites[i].shape[2] > chi]
         if not wide:
             return
