@@ -8,6 +8,9 @@ well above the largest chi compared so that its own error does not flatter the s
     .venv/bin/python benchmarks/approximate_shootout.py            # full run (long)
     .venv/bin/python benchmarks/approximate_shootout.py --sizes 9 --syndromes 5
 
+The sweep also runs tapered at each ratio of --sweep-tapers below 1: far_chi = round(ratio x chi)
+on all but the last --near-layers layers before its two lines meet (chi on those).
+
 Every strategy runs at each singular-value cutoff of --cutoffs (relative to a bond's largest
 singular value in the sweep, columns and quimb_boundary; quimb_compressed reads it in its own
 mode, a relative sum of squares). Prints, per (size, noise): for each strategy, chi and cutoff,
@@ -142,6 +145,11 @@ def main(argv=None) -> int:
     ap.add_argument("--cutoffs", type=float, nargs="+", default=[1e-13, 1e-12],
                     help="singular-value cutoffs, relative to the largest, that every strategy runs at (default "
                          "1e-13 1e-12; each setting is one chi and one cutoff)")
+    ap.add_argument("--sweep-tapers", type=float, nargs="+", default=[1.0],
+                    help="far_chi / chi ratios the sweep runs at (far_chi = round(ratio x chi) on all but the last "
+                         "--near-layers layers before the lines meet; 1: chi on every layer; default 1)")
+    ap.add_argument("--near-layers", type=int, default=6,
+                    help="the sweep's near_layers where far_chi < chi (default 6)")
     ap.add_argument("--ref-chi", type=int, default=96, help="chi of the sweep reference where exact is refused")
     ap.add_argument("--noises", nargs="+", default=["bit_flip", "depolarizing"], choices=["bit_flip", "depolarizing"])
     ap.add_argument("--syndromes", type=int, default=20, help="seeded syndromes per setting (default 20)")
@@ -153,7 +161,7 @@ def main(argv=None) -> int:
     missing = sorted(set(args.strategies) - set(names))
     if missing:
         print(f"(not installed, left out: {', '.join(missing)})")
-    scaling: dict[tuple[str, int, float], list[tuple[int, float, float]]] = {}
+    scaling: dict[tuple[str, int, float, int], list[tuple[int, float, float]]] = {}
     for size in args.sizes:
         code = catalog.build_code("surface", "square", size)
         for noise, rate in (("bit_flip", 0.1), ("depolarizing", 0.15)):
@@ -171,7 +179,8 @@ def main(argv=None) -> int:
             else:
                 print(f"   exact: plan {ref[0]:.2f} s, {1e3 * ref[1]:.1f} ms per syndrome")
             reference = ref[2]
-            print(f"   {'strategy':<18}{'chi':>5}{'cutoff':>8}{'plan [s]':>10}{'ms/syndrome':>14}{'cpu ms':>10}"
+            print(f"   {'strategy':<18}{'chi':>5}{'far':>5}{'cutoff':>8}{'plan [s]':>10}{'ms/syndrome':>14}"
+                  f"{'cpu ms':>10}"
                   f"{'mean |d ln P|':>16}{'90% interval':>22}{'top class':>12}   by class relative to the top one"
                   f"   vs {ref_label}")
             classes = [[n.metadata["class"] for n in nets] for nets in groups]
@@ -179,18 +188,24 @@ def main(argv=None) -> int:
             for name in names:
                 for cutoff in args.cutoffs:
                     for chi in args.sweep_chis if name == "sweep" else args.chis:
-                        print(f"   ... {name} chi={chi} cutoff={cutoff:g}", file=sys.stderr, flush=True)
-                        out = run_setting(catalog.strategy(name), {"chi": chi, "cutoff": cutoff}, structure, groups)
-                        if isinstance(out, str):
-                            print(f"   {name:<18}{chi:>5}{cutoff:>8g}   refused: {out}")
-                            continue
-                        err, low, high, top, by_class, sums = error_summary(out[2], reference, classes)
-                        results[(name, chi, cutoff)] = (out[1], err, out[3], top, sums)
-                        relative = ", ".join(f"{label} {e:.1e}" for label, e in by_class.items())
-                        print(f"   {name:<18}{chi:>5}{cutoff:>8g}{out[0]:>10.2f}{1e3 * out[1]:>14.2f}"
-                              f"{1e3 * out[3]:>10.2f}{err:>16.2e}{f'{low:.1e} .. {high:.1e}':>22}{top:>12.1e}"
-                              f"   {relative}", flush=True)
-                        scaling.setdefault((name, chi, cutoff), []).append((code.n, out[1], out[3]))
+                        for far in far_chis(chi, args.sweep_tapers) if name == "sweep" else [0]:
+                            setting = (chi, cutoff, far)
+                            print(f"   ... {name} {_setting(setting)}", file=sys.stderr, flush=True)
+                            params = {"chi": chi, "cutoff": cutoff}
+                            if far:
+                                params.update(far_chi=far, near_layers=args.near_layers)
+                            out = run_setting(catalog.strategy(name), params, structure, groups)
+                            far_col = str(far) if far else "-"
+                            if isinstance(out, str):
+                                print(f"   {name:<18}{chi:>5}{far_col:>5}{cutoff:>8g}   refused: {out}")
+                                continue
+                            err, low, high, top, by_class, sums = error_summary(out[2], reference, classes)
+                            results[(name,) + setting] = (out[1], err, out[3], top, sums)
+                            relative = ", ".join(f"{label} {e:.1e}" for label, e in by_class.items())
+                            print(f"   {name:<18}{chi:>5}{far_col:>5}{cutoff:>8g}{out[0]:>10.2f}{1e3 * out[1]:>14.2f}"
+                                  f"{1e3 * out[3]:>10.2f}{err:>16.2e}{f'{low:.1e} .. {high:.1e}':>22}{top:>12.1e}"
+                                  f"   {relative}", flush=True)
+                            scaling.setdefault((name,) + setting, []).append((code.n, out[1], out[3]))
             _target(results, clock=0, label="wall")
             _target(results, clock=2, label="cpu", quiet=True)
             _target(results, clock=2, label="cpu time at equal error on the most likely class", quiet=True,
@@ -210,14 +225,14 @@ def _target(results, clock: int = 0, label: str = "wall", quiet: bool = False, e
 
     error 1 compares the mean |d ln P| over all classes (the target's measure); error 3 that of the
     most likely class only (for information: what a decoder's decision rests on)."""
-    sweep = sorted((r[clock], (chi, cut), r[error]) for (n, chi, cut), r in results.items() if n == "sweep")
+    sweep = sorted((r[clock], setting, r[error]) for (n, *setting), r in results.items() if n == "sweep")
     if not sweep:
         return
     ratios = []
-    for (name, chi_b, cut_b), r in sorted(results.items()):
+    for (name, *setting_b), r in sorted(results.items()):
         if name not in BASELINES:
             continue
-        base = f"{name} {_setting((chi_b, cut_b))}"
+        base = f"{name} {_setting(setting_b)}"
         t_b, err_b = r[clock], r[error]
         goal = max(err_b, ACCURACY_FLOOR)
         hit = next(((t, chi, err) for t, chi, err in sweep if err <= goal), None)
@@ -233,7 +248,7 @@ def _target(results, clock: int = 0, label: str = "wall", quiet: bool = False, e
             if error == 1:
                 cheaper = [s for s in sweep if s[0] < hit[0]]
                 for t, setting, _ in [hit] + cheaper[-1:]:
-                    ratio, low, high, share = paired_error_ratio(results[("sweep",) + setting][4], r[4])
+                    ratio, low, high, share = paired_error_ratio(results[("sweep", *setting)][4], r[4])
                     print(f"      sampling noise: mean error of sweep {_setting(setting)} / {base} = {ratio:.2f} "
                           f"(90% paired interval {low:.2f} .. {high:.2f}; the sweep at least as accurate in "
                           f"{100 * share:.0f}% of resamples), {t_b / t:.1f}x faster")
@@ -247,14 +262,21 @@ def _target(results, clock: int = 0, label: str = "wall", quiet: bool = False, e
         print(f"   (not the target) {label}: {listed}")
 
 
-def _setting(setting: tuple[int, float]) -> str:
-    chi, cutoff = setting
-    return f"chi={chi} cutoff={cutoff:g}"
+def far_chis(chi: int, tapers: list[float]) -> list[int]:
+    """The sweep's far_chi values for one chi: round(ratio x chi) for each ratio below 1 (those that leave
+    1 <= far_chi < chi), and 0 (far_chi = chi, every layer at chi) if 1 is among the ratios."""
+    fars = {max(1, round(r * chi)) for r in tapers if r < 1}
+    return ([0] if any(r >= 1 for r in tapers) else []) + sorted(f for f in fars if f < chi)
+
+
+def _setting(setting) -> str:
+    chi, cutoff, far = setting
+    return f"chi={chi}" + (f" far_chi={far}" if far else "") + f" cutoff={cutoff:g}"
 
 
 def _scaling(scaling) -> None:
     print("\n== time per syndrome against qubits at fixed chi (fitted exponent of t ~ n^a, wall and cpu)")
-    for (name, chi, cutoff), points in sorted(scaling.items()):
+    for (name, chi, cutoff, far), points in sorted(scaling.items()):
         ns = sorted({n for n, _, _ in points})
         if len(ns) < 2:
             continue
@@ -263,7 +285,7 @@ def _scaling(scaling) -> None:
         cpu = {n: max(c for m, _, c in points if m == n) for n in ns}
         a = np.polyfit(np.log(ns), np.log([wall[n] for n in ns]), 1)[0]
         b = np.polyfit(np.log(ns), np.log([cpu[n] for n in ns]), 1)[0]
-        print(f"   {name:<18} chi={chi:<3} cutoff={cutoff:g} exponent {a:.2f} wall, {b:.2f} cpu  "
+        print(f"   {name:<18} {_setting((chi, cutoff, far)):<28} exponent {a:.2f} wall, {b:.2f} cpu  "
               f"({', '.join(f'n={n}: {1e3 * wall[n]:.1f} / {1e3 * cpu[n]:.1f} ms' for n in ns)})")
 
 
