@@ -47,6 +47,14 @@ class CellRecipe:
     inds: tuple[str, ...]
 
 
+def _einsum_args(arrays, operands) -> list:
+    """np.einsum's interleaved arguments: each array followed by its sublist."""
+    args: list = []
+    for array, sub in zip(arrays, operands):
+        args += [array, list(sub)]
+    return args
+
+
 def _bond_name(a: Cell, b: Cell) -> str:
     (r1, c1), (r2, c2) = sorted((a, b))
     return f"g{r1},{c1}_{r2},{c2}"
@@ -85,10 +93,8 @@ def cell_recipes(structure: NetworkStructure, layout: GridLayout) -> tuple[CellR
             operands = tuple(tuple(label[b] for b in structure.node_bonds[v]) for v in nodes)
             path: list | bool = False
             if len(nodes) > 2:
-                args = []
-                for v, sub in zip(nodes, operands):
-                    args += [np.ones((2,) * len(sub)), list(sub)]
-                path = np.einsum_path(*args, list(output), optimize="greedy")[0]
+                dummies = [np.ones((2,) * len(sub)) for sub in operands]
+                path = np.einsum_path(*_einsum_args(dummies, operands), list(output), optimize="greedy")[0]
             recipes.append(CellRecipe(cell, nodes, operands, output, path,
                                       tuple(2 ** len(to[n]) for n in neighbours),
                                       tuple(_bond_name(cell, n) for n in neighbours)))
@@ -107,10 +113,8 @@ def fused_grid(recipes: tuple[CellRecipe, ...], layout: GridLayout, network: Dec
         if not r.members:
             data = np.ones(())
         else:
-            args = []
-            for v, sub in zip(r.members, r.operands):
-                args += [arrays[v], list(sub)]
-            data = np.einsum(*args, list(r.output), optimize=r.path).reshape(r.shape)
+            members = [arrays[v] for v in r.members]
+            data = np.einsum(*_einsum_args(members, r.operands), list(r.output), optimize=r.path).reshape(r.shape)
         tags = (SITE_TAG.format(row, col), X_TAG.format(row), Y_TAG.format(col))
         tensors.append(qtn.Tensor(data, inds=r.inds, tags=tags))
     lx, ly = layout.shape

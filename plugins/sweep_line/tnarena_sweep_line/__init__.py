@@ -290,7 +290,7 @@ def _run_resuming(steps: list[Step], arrays: list, plan: SweepPlan, key: tuple[i
             if done <= same:
                 start, mps = done, line.copy()
                 break
-    mps = mps or LineMPS(plan.chi, plan.cutoff)
+    mps = mps or LineMPS(plan.cutoff)
     snapshots = [s for s in (memo.snapshots if memo else []) if s[0] <= start]
     for k in range(start, len(steps)):
         step = steps[k]
@@ -312,7 +312,7 @@ def _run_batch(steps: list[Step], arrays: list, plan: SweepPlan,
     returns the lines, one per group, and each element's group (shape (B,)).
     """
     groups = PrefixGroups(batch)
-    mps = _batched.BatchLineMPS(groups.count, plan.chi, plan.cutoff)
+    mps = _batched.BatchLineMPS(groups.count, plan.cutoff)
     start = 0
     for stop in [k + 1 for k, step in enumerate(steps) if step.end] + [len(steps)]:
         layer = steps[start:stop]

@@ -78,9 +78,8 @@ class BatchLineMPS:
     (equal for every element, since the shapes are).
     """
 
-    def __init__(self, batch: int, chi: int, cutoff: float) -> None:
+    def __init__(self, batch: int, cutoff: float) -> None:
         self.batch = batch
-        self.chi = chi
         self.cutoff = cutoff
         self.sites: list[np.ndarray] = []
         self.center = 0
@@ -92,7 +91,7 @@ class BatchLineMPS:
     def take(self, index: np.ndarray) -> "BatchLineMPS":
         """A batch of the lines of elements ``index`` (shape (G,)); sites broadcast along the batch
         axis (identity sites) stay views."""
-        out = BatchLineMPS(len(index), self.chi, self.cutoff)
+        out = BatchLineMPS(len(index), self.cutoff)
         out.sites = [take(site, index) for site in self.sites]
         out.center = self.center
         out.log_value, out.discarded = self.log_value[index], self.discarded[index]
@@ -239,9 +238,9 @@ class BatchLineMPS:
         out.append(rest.reshape(batch, dl, 2, dr))
         return out
 
-    def compress(self, chi: int = 0) -> None:
+    def compress(self, chi: int) -> None:
         """As :meth:`LineMPS.compress`, with a common kept count per bond."""
-        sites, chi, batch = self.sites, chi or self.chi, self.batch
+        sites, batch = self.sites, self.batch
         wide = [i for i in range(len(sites) - 1) if sites[i].shape[3] > chi]
         if not wide:
             return

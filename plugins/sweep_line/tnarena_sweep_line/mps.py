@@ -49,7 +49,7 @@ class Step:
     rescale : divide the centre by its norm after this step (the log carried);
         every few steps is enough to stay far from under- and overflow
     cap : most singular values a new bond keeps while this step's layer is absorbed
-    chi : most singular values a bond keeps when this step's layer ends (0: the line's own chi)
+    chi : most singular values a bond keeps when this step's layer ends
     """
 
     lo: int
@@ -68,12 +68,11 @@ class Step:
 class LineMPS:
     """An MPS over the bonds crossing the sweep line.
 
-    chi : most singular values kept per bond; cutoff : singular values below
-    ``cutoff * largest`` are dropped as well.
+    cutoff : singular values below ``cutoff * largest`` are dropped (the most kept per bond is
+    given to each operation: ``cap`` while absorbing, ``chi`` when a layer ends).
     """
 
-    def __init__(self, chi: int, cutoff: float) -> None:
-        self.chi = chi
+    def __init__(self, cutoff: float) -> None:
         self.cutoff = cutoff
         self.sites: list[np.ndarray] = []
         self.center = 0
@@ -84,7 +83,7 @@ class LineMPS:
 
     def copy(self) -> "LineMPS":
         """An independent line in the same state (sites are never written in place: shared)."""
-        out = LineMPS(self.chi, self.cutoff)
+        out = LineMPS(self.cutoff)
         out.sites = list(self.sites)
         out.center, out.log_value, out.discarded = self.center, self.log_value, self.discarded
         out.flops, out.largest = self.flops, self.largest
@@ -164,14 +163,13 @@ class LineMPS:
         self.flops += out.size * (2 ** len(step.axes[0]))
         return out.transpose(step.perm)
 
-    def compress(self, chi: int = 0) -> None:
-        """Cut every bond wider than ``chi`` (0: the line's chi) by one sweep of truncated SVDs
-        across the wide bonds.
+    def compress(self, chi: int) -> None:
+        """Cut every bond wider than ``chi`` by one sweep of truncated SVDs across the wide bonds.
 
         The sweep starts from the end of the wide range nearer the centre and
         leaves the centre at the other end (LQ/QR where a bond is not wide).
         """
-        sites, chi = self.sites, chi or self.chi
+        sites = self.sites
         wide = [i for i in range(len(sites) - 1) if sites[i].shape[2] > chi]
         if not wide:
             return
