@@ -295,16 +295,18 @@ def test_sweep_offers_batched_contraction(catalog):
 # ---- resuming from the previous contraction with the same plan -------------------------------
 
 
-@pytest.mark.parametrize("noise_name", ["bit_flip", "depolarizing"])
-def test_resumed_contraction_is_bit_identical_and_close_to_exact(catalog, noise_name):
+@pytest.mark.parametrize("noise_name, direction, partner", [
+    ("bit_flip", 0, (1, 0)), ("depolarizing", 0, (1, 0)), ("depolarizing", 90, (0, 1))])  # bit flip: no Z-bar class
+def test_resumed_contraction_is_bit_identical_and_close_to_exact(catalog, noise_name, direction, partner):
     """Consecutive class networks share a plan's memo: each ln equals, bit for bit, the same network
     contracted with a fresh plan (empty memo), and the exact strategy to 1e-9 at chi 32 (exact:
-    checked against brute force in test_exact_tree.py). The X class (through the middle column,
-    direction 0) takes over the half that never meets it from the I class."""
+    checked against brute force in test_exact_tree.py). The class whose logical runs along the line
+    through the middle (X-bar, the middle column, in direction 0; Z-bar, the middle row, in 90)
+    takes over all but one side's last layer from the I class, in 90 with two classes contracted between."""
     code = catalog.build_code("surface", "square", 7)
     table = make_noise(noise_name, code.n, 0.12)
     builder = NetworkBuilder(code, table)
-    (ex, pe), (sw, ps) = _pair(catalog, builder.structure, chi=32, direction=0)
+    (ex, pe), (sw, ps) = _pair(catalog, builder.structure, chi=32, direction=direction)
     rng = np.random.default_rng(3)
     reused = {}
     for _ in range(3):
@@ -314,19 +316,15 @@ def test_resumed_contraction_is_bit_identical_and_close_to_exact(catalog, noise_
             if network.is_zero:
                 continue
             got = sw.contract(ps, network)
-            fresh = sw.contract(sw.plan(builder.structure, _params_at(sw, 32)), network)
+            fresh = sw.contract(sw.plan(builder.structure, sw.resolve({"chi": 32, "direction": direction})), network)
             assert got.log_value == fresh.log_value
             assert fresh.stats["reused_steps"] == 0
             want = ex.contract(pe, network).log_value
             assert _relative_gap(want, got.log_value) < 1e-9
             reused.setdefault(cls, []).append(got.stats["reused_steps"])
-    steps = sum(len(side) for side in ps.steps[0])
-    assert min(reused[(1, 0)]) >= steps // 2 - 1  # at least the untouched half
-
-
-def _params_at(sw, chi):
-    """The params of the plan under test (chi, direction 0), validated."""
-    return sw.resolve({"chi": chi, "direction": 0})
+    # all but one side's last layer (after its last layer end), where the logical lies
+    tails = [len(side) - max(k + 1 for k, step in enumerate(side) if step.end) for side in ps.steps[0]]
+    assert min(reused[partner]) >= sum(len(side) for side in ps.steps[0]) - max(tails)
 
 
 def test_a_pickled_plan_carries_no_memo(catalog):
