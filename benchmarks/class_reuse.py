@@ -51,7 +51,8 @@ def main() -> None:
     table = make_noise("depolarizing", code.n, 0.15)
     structure, groups = networks_for(code, table, args.syndromes, args.seed)
     default = tnarena_sweep_line.MEMOS
-    print(f"square d = {args.size}, depolarizing p = 0.15, chi {args.chi}, {args.syndromes} syndromes (seed {args.seed})")
+    print(f"square d = {args.size}, depolarizing p = 0.15, chi {args.chi}, "
+          f"{args.syndromes} syndromes (seed {args.seed})")
     print(f"{'direction':>9} {'memos':>5} {'CPU ms':>8} {'taken over':>10} {'max |d ln|':>10}")
     try:
         for direction in args.directions:
