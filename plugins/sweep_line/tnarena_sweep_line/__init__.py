@@ -73,8 +73,7 @@ class SweepPlan:
     """Per connected piece of the network (their logs add): one schedule, or two that meet at a cut."""
 
     schedules: list[tuple[SweepSchedule, ...]]
-    steps: list[tuple[list[Step], ...]]  # per piece, per side
-    chi: int
+    steps: list[tuple[list[Step], ...]]  # per piece, per side (each step carries its own cap and chi)
     cutoff: float
     layout: FoldedLayout
     fold_paths: dict = dataclasses.field(default_factory=dict)  # einsum paths of the batched fold, by group
@@ -181,7 +180,7 @@ class SweepLine(Strategy):
                                                      cap=LAYER_SLACK * c if layered else c)
                                  for k, (st, c) in enumerate(zip(steps_here, chis))])
             steps.append(tuple(per_side))
-        return SweepPlan(schedules, steps, chi, float(params["cutoff"]), layout)
+        return SweepPlan(schedules, steps, float(params["cutoff"]), layout)
 
     def contract(self, plan: SweepPlan, network: DecodingNetwork) -> Estimate:
         with _blas().limit(limits=1, user_api="blas"):  # many small SVDs: threads only wait on each other
@@ -290,7 +289,7 @@ def _run_resuming(steps: list[Step], arrays: list, plan: SweepPlan, key: tuple[i
         sizes = np.zeros(len(steps) + 1, dtype=np.int64)
         sizes[1:] = [arrays[step.node].size if step.node >= 0 else 0 for step in steps]
         offsets = np.cumsum(sizes)
-    start, mps, source = 0, None, None
+    start, source = 0, None
     for memo in memos:
         if memo.content.shape != content.shape:
             continue
@@ -302,10 +301,11 @@ def _run_resuming(steps: list[Step], arrays: list, plan: SweepPlan, key: tuple[i
         done = max((d for d, _ in memo.snapshots if d <= same), default=0)
         if done > start:
             start, source = done, memo
-    if source is not None:
+    if source is None:
+        mps, snapshots = LineMPS(plan.cutoff), []
+    else:
         mps = next(line for d, line in source.snapshots if d == start).copy()
-    mps = mps or LineMPS(plan.cutoff)
-    snapshots = [s for s in (source.snapshots if source else []) if s[0] <= start]
+        snapshots = [s for s in source.snapshots if s[0] <= start]
     for k in range(start, len(steps)):
         step = steps[k]
         mps.apply(step, None if step.node < 0 else arrays[step.node], step.cap)
