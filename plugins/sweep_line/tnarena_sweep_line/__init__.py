@@ -308,7 +308,7 @@ def _run_resuming(steps: list[Step], arrays: list, plan: SweepPlan, key: tuple[i
         snapshots = [s for s in source.snapshots if s[0] <= start]
     for k in range(start, len(steps)):
         step = steps[k]
-        mps.apply(step, None if step.node < 0 else arrays[step.node], step.cap)
+        mps.apply(step, None if step.node < 0 else arrays[step.node])
         if step.end:
             mps.compress(step.chi)
             snapshots = (snapshots + [(k + 1, mps.copy())])[-SNAPSHOTS:]
@@ -336,7 +336,7 @@ def _run_batch(steps: list[Step], arrays: list, plan: SweepPlan,
             mps = mps.take(parent)
         mine = {v: arrays[v] if groups.count == batch else take(arrays[v], groups.rep) for v in nodes}
         for step in layer:
-            mps.apply(step, None if step.node < 0 else mine[step.node], step.cap)
+            mps.apply(step, None if step.node < 0 else mine[step.node])
             if step.end:
                 mps.compress(step.chi)
         start = stop

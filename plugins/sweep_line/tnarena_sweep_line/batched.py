@@ -121,7 +121,7 @@ class BatchLineMPS:
             self.flops += dl * p * dr * dl
             self.center -= 1
 
-    def apply(self, step: Step, node: np.ndarray | None, cap: int) -> None:
+    def apply(self, step: Step, node: np.ndarray | None) -> None:
         """As :meth:`LineMPS.apply`, on every element; node has shape (B,) + (2,) * degree."""
         lo, hi, count, batch = step.lo, step.hi, step.count, self.batch
         if hi > lo:
@@ -149,7 +149,7 @@ class BatchLineMPS:
             block = self._general(np.ones((batch, 1, 1)), node, step)
         self.largest = max(self.largest, block[0].size)
         self._centre_offset = count - 1
-        self.sites[lo:hi] = self._split(block, count, cap)
+        self.sites[lo:hi] = self._split(block, count, step.cap)
         if count:
             self.center = lo + self._centre_offset
             if not step.rescale:

@@ -113,9 +113,9 @@ class LineMPS:
             self.center -= 1
 
     # ---- the window operation ----------------------------------------------
-    def apply(self, step: Step, node: np.ndarray | None, cap: int) -> None:
+    def apply(self, step: Step, node: np.ndarray | None) -> None:
         """Replace sites [step.lo, step.hi) by ``step.count`` new sites, absorbing ``node``
-        (shape (2,) * degree; None for a swap); bonds wider than ``cap`` are truncated."""
+        (shape (2,) * degree; None for a swap); bonds wider than ``step.cap`` are truncated."""
         lo, hi, count = step.lo, step.hi, step.count
         if hi > lo:
             if not lo <= self.center < hi:
@@ -141,7 +141,7 @@ class LineMPS:
         else:
             block = self._general(np.ones((1, 1)), node, step)
         self.largest = max(self.largest, block.size)
-        self.sites[lo:hi] = self._split(block, count, cap)
+        self.sites[lo:hi] = self._split(block, count, step.cap)
         if count:
             self.center = lo + count - 1
             if not step.rescale:
